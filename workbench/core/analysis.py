@@ -1,0 +1,353 @@
+"""The one analysis every front end calls: ``analyse(dataset, settings, exclusions)``.
+
+A pure function: it reads the dataset and the settings, applies the exclusions, computes the
+charts and their limits, evaluates the run rules and returns an immutable
+:class:`~workbench.core.model.Analysis`.  The TUI, the headless report and the tests all
+call it; nothing here knows a view exists.
+"""
+from __future__ import annotations
+
+from typing import Any, Iterable
+
+import numpy as np
+
+from . import charts as C
+from . import rules as R
+from .model import (
+    ATTRIBUTE_CHARTS, CHART_KINDS, SIGMA_METHOD_LABELS, Analysis, ChartResult, Dataset, Exclusion,
+    FrozenLimits, Settings, Signal, WorkbenchError,
+)
+
+MIN_PHASE1_SUBGROUPS = 20
+"""Fewer subgroups than this give a warning that the trial limits are uncertain (common practice: 20-25)."""
+
+
+def resolve_chart(ds: Dataset, settings: Settings) -> str:
+    """The chart kind that ``settings.chart`` means for this dataset."""
+    kind = settings.chart
+    if kind not in CHART_KINDS and kind != "auto":
+        raise WorkbenchError(f"unknown chart kind {kind!r} (choose from auto, {', '.join(CHART_KINDS)})")
+    if ds.is_attribute:
+        if kind == "auto":
+            return "p" if ds.sizes is not None else "c"
+        if kind not in ATTRIBUTE_CHARTS:
+            raise WorkbenchError(f"the data are counts: use a p, np, c or u chart, not {kind}")
+        return kind
+    if kind in ATTRIBUTE_CHARTS:
+        raise WorkbenchError(f"a {kind} chart needs count data (give --count and, for p/np/u, --size)")
+    if ds.is_summary:
+        if kind == "auto":
+            return "xbar-r" if ds.summary_range is not None else "xbar-s"
+        if kind == "imr":
+            raise WorkbenchError("summary data hold subgroup statistics, not individual readings: no I-MR chart")
+        if kind == "xbar-r" and ds.summary_range is None:
+            raise WorkbenchError("an X̄-R chart needs a range column; this summary file has standard deviations (use xbar-s)")
+        if kind == "xbar-s" and ds.summary_sd is None:
+            raise WorkbenchError("an X̄-S chart needs a standard deviation column; this summary file has ranges (use xbar-r)")
+        return kind
+    if kind == "auto":
+        if ds.k == 1:
+            return "imr"
+        return "xbar-r" if ds.k <= 10 else "xbar-s"
+    if kind == "imr" and ds.k > 1:
+        raise WorkbenchError(f"an I-MR chart needs one reading per subgroup; these data have {ds.k} streams "
+                             "(use xbar-r or xbar-s, or --layout individuals)")
+    if kind in ("xbar-r", "xbar-s") and ds.k == 1:
+        raise WorkbenchError(f"{kind} needs subgroups of two or more readings; these data have one stream (use imr)")
+    return kind
+
+
+def resolve_sigma(chart: str, ds: Dataset, settings: Settings) -> str:
+    """The sigma estimator that ``settings.sigma`` means for this chart."""
+    method = settings.sigma
+    if method == "auto" and settings.known_sigma is not None:
+        method = "known"
+    individuals = chart == "imr" or (not ds.is_summary and ds.k == 1)
+    if method == "auto":
+        if individuals:
+            return "mrbar"
+        if chart == "xbar-s" or (ds.is_summary and ds.summary_range is None):
+            return "sbar"
+        if chart in ("ewma", "cusum") and not ds.is_summary and ds.k > 10:
+            return "sbar"
+        return "rbar"
+    if method == "mrbar" and not individuals:
+        raise WorkbenchError("mrbar (MR̄/d2) applies to individuals data; use rbar, sbar or pooled for subgroups")
+    if method in ("rbar", "sbar", "pooled") and individuals:
+        raise WorkbenchError(f"{method} needs subgroups of two or more readings; use mrbar for individuals")
+    if method == "rbar" and ds.is_summary and ds.summary_range is None:
+        raise WorkbenchError("rbar needs subgroup ranges; this summary file has standard deviations")
+    if method in ("sbar", "pooled") and ds.is_summary and ds.summary_sd is None:
+        raise WorkbenchError(f"{method} needs subgroup standard deviations; this summary file has ranges")
+    if method == "known" and settings.known_sigma is None:
+        raise WorkbenchError("sigma method 'known' needs --known-sigma")
+    return method
+
+
+def exclusion_masks(ds: Dataset, exclusions: Iterable[Exclusion]) -> tuple[np.ndarray, np.ndarray]:
+    """Boolean masks (subgroups,) and (subgroups, streams) for a set of exclusions."""
+    sub = np.zeros(ds.m, bool)
+    cells = np.zeros((ds.m, max(ds.k, 1)), bool)
+    for ex in exclusions:
+        i = ds.index_of(ex.subgroup)
+        if ex.stream is None:
+            sub[i] = True
+        else:
+            if ds.is_summary:
+                raise WorkbenchError("summary data hold no single readings: exclude the whole subgroup")
+            cells[i, ds.stream_index(ex.stream)] = True
+    if ds.values is not None:
+        present = ~np.isnan(ds.values)
+        # a subgroup whose every reading is excluded is an excluded subgroup
+        rows = np.flatnonzero(cells.any(axis=1))
+        if rows.size:
+            full = ~(present[rows] & ~cells[rows]).any(axis=1)
+            sub[rows[full]] = True
+    cells |= sub[:, None]
+    return sub, cells
+
+
+def _summary_stats(ds: Dataset) -> C.SubgroupStats:
+    n = ds.summary_n.astype(int)
+    rng = ds.summary_range if ds.summary_range is not None else np.full(ds.m, np.nan)
+    sd = ds.summary_sd if ds.summary_sd is not None else np.full(ds.m, np.nan)
+    return C.SubgroupStats(n=n, mean=ds.summary_mean.astype(float), range=rng.astype(float), sd=sd.astype(float))
+
+
+def _overall_sd(ds: Dataset, used: np.ndarray | None, stats: C.SubgroupStats, use: np.ndarray) -> float:
+    if used is not None:
+        v = used[use]
+        v = v[~np.isnan(v)]
+        return float(np.std(v, ddof=1)) if v.size > 1 else float("nan")
+    # summary data: total sum of squares from the subgroup statistics
+    n, mean = stats.n[use], stats.mean[use]
+    sd = stats.sd[use]
+    if np.isnan(sd).all():
+        from .constants import d2, table
+        sd = stats.range[use] / table(n, d2)  # ranges only: s estimated by R/d2 (stated in a warning)
+    total = n.sum()
+    if total < 2:
+        return float("nan")
+    gm = np.sum(n * mean) / total
+    ss = np.nansum((n - 1) * sd ** 2) + np.sum(n * (mean - gm) ** 2)
+    return float(np.sqrt(ss / (total - 1)))
+
+
+def analyse(dataset: Dataset, settings: Settings = Settings(), exclusions: Iterable[Exclusion] = (),
+            frozen: FrozenLimits | None = None) -> Analysis:
+    """Compute the control charts, limits and signals of a dataset.
+
+    Parameters
+    ----------
+    dataset : the loaded data
+    settings : chart kind, sigma estimator, rule sets, specification
+    exclusions : subgroups or single readings left out of the limits (Phase I)
+    frozen : limits fixed at a freeze; subgroups after ``frozen.subgroups`` are Phase II
+
+    Returns
+    -------
+    Analysis
+    """
+    ds = dataset
+    excl = tuple(sorted(set(exclusions)))
+    if ds.m == 0:
+        raise WorkbenchError(f"{ds.path}: no subgroups to chart")
+    chart = resolve_chart(ds, settings)
+    if frozen is not None and frozen.chart != chart:
+        raise WorkbenchError(f"limits were frozen for a {frozen.chart} chart; unfreeze before changing to {chart}")
+    ex_sub, ex_cells = exclusion_masks(ds, excl)
+    warnings: list[str] = []
+    phase2 = frozen.subgroups if frozen is not None and frozen.subgroups < ds.m else None
+    use = ~ex_sub
+    if frozen is not None:
+        use[min(frozen.subgroups, ds.m):] = False
+
+    if chart in ATTRIBUTE_CHARTS:
+        return _analyse_attribute(ds, settings, excl, chart, ex_sub, ex_cells, phase2, warnings)
+
+    if ds.is_summary:
+        used = None
+        stats = _summary_stats(ds)
+        if np.any(stats.n <= 0):
+            raise WorkbenchError(f"{ds.path}: subgroup sizes must be positive")
+    else:
+        used = np.where(ex_cells & ~ex_sub[:, None], np.nan, ds.values)  # reading exclusions leave the statistic
+        stats = C.subgroup_stats(used)
+    sigma_method = resolve_sigma(chart, ds, settings)
+    known_mean = settings.known_mean
+    individuals = chart == "imr" or (not ds.is_summary and ds.k == 1)
+
+    if individuals:
+        x = stats.mean
+        ks = settings.known_sigma if sigma_method == "known" else None
+        if frozen is not None:
+            known_mean, ks = frozen.center, frozen.sigma
+        i_chart, mr_chart, center, sigma = C.individuals_charts(x, ex_sub, known_mean, ks)
+        base = [i_chart, mr_chart]
+    else:
+        if frozen is not None:
+            sigma, center = frozen.sigma, frozen.center
+        else:
+            sigma = C.estimate_sigma(sigma_method, stats, use, settings.known_sigma)
+            if known_mean is not None:
+                center = float(known_mean)
+            else:
+                w = stats.n[use].astype(float)
+                center = float(np.sum(w * stats.mean[use]) / w.sum()) if w.sum() > 0 else float("nan")
+        base = [C.xbar_chart(stats, center, sigma, ex_sub)]
+        if chart in ("xbar-s",) or (chart in ("ewma", "cusum") and sigma_method in ("sbar", "pooled")):
+            base.append(C.sd_chart(stats, sigma, ex_sub))
+        else:
+            base.append(C.range_chart(stats, sigma, ex_sub))
+        _subgroup_warnings(chart, stats, warnings)
+
+    if chart in ("ewma", "cusum"):
+        base[0] = _small_shift(chart, base[0], center, settings)
+
+    if not np.isfinite(sigma):
+        warnings.append("sigma could not be estimated (too few readings): no limits")
+    elif sigma == 0:
+        warnings.append("all readings are identical: sigma is 0 and the limits collapse onto the centre line")
+    if ds.m < 2:
+        warnings.append("only one subgroup: limits from a single subgroup are not meaningful")
+    elif phase2 is None and ds.m < MIN_PHASE1_SUBGROUPS and frozen is None:
+        warnings.append(f"only {ds.m} subgroups: trial limits from fewer than {MIN_PHASE1_SUBGROUPS} subgroups are "
+                        "uncertain (common practice asks for 20-25)")
+    if ds.is_summary and ds.summary_sd is None:
+        warnings.append("summary data with ranges only: the overall sigma uses R/d2 for each subgroup's SD")
+
+    sigma_overall = _overall_sd(ds, used, stats, use)
+    charts, signals = _apply_rules(ds, base, settings, chart)
+    return Analysis(
+        dataset=ds, settings=settings, exclusions=excl, chart=chart, sigma_method=sigma_method,
+        sigma_within=float(sigma), sigma_overall=sigma_overall, center=float(center), n=stats.n,
+        charts=tuple(charts), signals=tuple(signals), excluded_subgroups=ex_sub,
+        excluded_cells=None if ds.is_summary else ex_cells, warnings=tuple(warnings), phase2_start=phase2,
+    )
+
+
+def _subgroup_warnings(chart: str, stats: C.SubgroupStats, warnings: list[str]) -> None:
+    n = stats.n[stats.n > 0]
+    if n.size and n.min() != n.max():
+        if chart == "xbar-r":
+            warnings.append(f"subgroup sizes vary ({n.min()}–{n.max()}): the X̄-R chart uses per-subgroup constants; "
+                            "an X̄-S chart is preferred for unequal sizes")
+        else:
+            warnings.append(f"subgroup sizes vary ({n.min()}–{n.max()}): limits vary point by point")
+    if n.size and n.max() > 10 and chart == "xbar-r":
+        warnings.append("subgroups of more than 10 readings: the range wastes information; an X̄-S chart is advised")
+    single = int(np.sum(stats.n == 1))
+    if single:
+        warnings.append(f"{single} subgroup(s) hold a single reading and have no range or SD")
+
+
+def _small_shift(chart: str, loc: ChartResult, center: float, settings: Settings) -> ChartResult:
+    from . import smallshift
+    sigma_x = loc.sigma
+    if chart == "ewma":
+        return smallshift.ewma_chart(loc.values, center, sigma_x, loc.excluded, settings.ewma_lambda,
+                                     settings.ewma_l, settings.ewma_asymptotic)
+    res, _info = smallshift.cusum_chart(loc.values, center, sigma_x, loc.excluded, settings.cusum_k,
+                                        settings.cusum_h, settings.cusum_head_start)
+    return res
+
+
+def _analyse_attribute(ds, settings, excl, chart, ex_sub, ex_cells, phase2, warnings) -> Analysis:
+    from . import attribute
+    counts = np.where(ex_cells & ~ex_sub[:, None], 0.0, ds.counts)
+    counts = np.nansum(counts, axis=1)
+    sizes = None
+    if ds.sizes is not None:
+        sizes = np.nansum(np.where(ex_cells & ~ex_sub[:, None], 0.0, ds.sizes), axis=1)
+    res, info = attribute.attribute_chart(chart, counts, sizes, ex_sub, settings.laney)
+    warnings.extend(info.warnings)
+    charts, signals = _apply_rules(ds, [res], settings, chart)
+    center = float(np.nanmean(res.center))
+    sig = float(np.nanmean(res.sigma))
+    return Analysis(
+        dataset=ds, settings=settings, exclusions=excl, chart=chart, sigma_method="binomial" if chart in ("p", "np")
+        else "poisson", sigma_within=sig, sigma_overall=float("nan"), center=center,
+        n=(sizes if sizes is not None else np.ones(ds.m)).astype(float), charts=tuple(charts),
+        signals=tuple(signals), excluded_subgroups=ex_sub, excluded_cells=ex_cells, warnings=tuple(warnings),
+        phase2_start=phase2,
+    )
+
+
+def _apply_rules(ds: Dataset, charts: list[ChartResult], settings: Settings, kind: str):
+    loc_rules = R.resolve(settings.rules)
+    spread_rules = R.resolve(settings.spread_rules)
+    out: list[ChartResult] = []
+    signals: list[Signal] = []
+    labels = ds.labels
+    for c in charts:
+        rs = loc_rules if c.role == "location" and kind not in ("ewma", "cusum") else spread_rules
+        if kind in ("ewma", "cusum") and c.role == "location":
+            rs = R.resolve("limits-only")  # zone rules do not apply to autocorrelated statistics
+        if kind == "cusum" and c.role == "location":
+            values = np.maximum(c.values, c.extra.get("cusum-", np.zeros_like(c.values)))
+            firings = R.evaluate(values, c.center, c.sigma, np.full_like(values, -np.inf), c.ucl, c.excluded, rs)
+        else:
+            firings = R.evaluate(c.values, c.center, c.sigma, c.lcl, c.ucl, c.excluded, rs)
+        flags = {rid: f.fired for rid, f in firings.items()}
+        out.append(ChartResult(c.name, c.title, c.role, c.values, c.center, c.lcl, c.ucl, c.sigma, c.excluded,
+                               flags, rs.ids, c.extra))
+        for rid, f in firings.items():
+            rule = rs.rule(rid)
+            for points, fired in R.group_firings(f, rule.window):
+                first, last = int(points[0]), int(points[-1])
+                signals.append(Signal(
+                    chart=c.name, rule=rid, first=first, last=last, points=tuple(points.tolist()),
+                    fired=tuple(fired.tolist()), key=f"{c.name}/{rid}/{labels[first]}", description=rule.words))
+    signals.sort(key=lambda s: (s.first, s.last, s.chart, s.rule))
+    return out, signals
+
+
+def _summarise(a: np.ndarray) -> Any:
+    f = a[np.isfinite(a)]
+    if f.size == 0:
+        return None
+    if np.isfinite(a).all() and np.all(f == f[0]):
+        return float(f[0])
+    return {"min": float(f.min()), "max": float(f.max()), "varies": True}
+
+
+def limits_snapshot(analysis: Analysis) -> dict[str, Any]:
+    """JSON-ready summary of the limits (numbers when constant, min/max when they vary)."""
+    def num(v: float) -> float | None:
+        return float(v) if np.isfinite(v) else None
+    return {
+        "chart": analysis.chart,
+        "sigma_method": analysis.sigma_method,
+        "sigma": num(analysis.sigma_within),
+        "center": num(analysis.center),
+        "charts": {c.name: {"center": _summarise(c.center), "lcl": _summarise(c.lcl), "ucl": _summarise(c.ucl)}
+                   for c in analysis.charts},
+    }
+
+
+def freeze(analysis: Analysis) -> FrozenLimits:
+    """Freeze the current Phase I limits for new data."""
+    if analysis.chart in ATTRIBUTE_CHARTS:
+        raise WorkbenchError("freezing limits is available for variables charts")
+    if not np.isfinite(analysis.sigma_within) or not np.isfinite(analysis.center):
+        raise WorkbenchError("no limits to freeze: sigma or centre is undefined")
+    return FrozenLimits(chart=analysis.chart, center=analysis.center, sigma=analysis.sigma_within,
+                        subgroups=analysis.dataset.m if analysis.phase2_start is None else analysis.phase2_start,
+                        limits=limits_snapshot(analysis)["charts"])
+
+
+def sigma_label(analysis: Analysis) -> str:
+    return SIGMA_METHOD_LABELS.get(analysis.sigma_method, analysis.sigma_method)
+
+
+def open_signals(analysis: Analysis, states: dict[str, Any] | None = None) -> list[Signal]:
+    """Signals not yet explained or closed, and not made only of excluded points."""
+    states = states or {}
+    out = []
+    for s in analysis.signals:
+        st = states.get(s.key)
+        st = getattr(st, "state", st)
+        if st in ("explained", "no-cause-found"):
+            continue
+        out.append(s)
+    return out

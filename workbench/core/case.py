@@ -1,0 +1,520 @@
+"""The trail of a case and its replay.
+
+A case's state (setup, exclusions, notes, signal states, frozen limits, cause list) is never
+stored: it is the replay of the trail of events.  Everything here is pure — events in,
+:class:`CaseState` out — and every event is checked as it is applied, so a trail that
+replays is a trail whose every step made sense.  File handling lives in ``casefile.py``.
+"""
+from __future__ import annotations
+
+import getpass
+import math
+import os
+import re
+import socket
+import unicodedata
+from dataclasses import dataclass, field, fields
+from datetime import datetime, timezone
+from typing import Any, Iterable, Mapping
+
+from .model import CHART_KINDS, SIGMA_METHODS, Exclusion, FrozenLimits, Settings, Spec, WorkbenchError
+
+FORMAT = "workbench.case"
+VERSION = 1
+DEFAULT_CAUSES = ("people", "machine", "method", "material", "measurement", "environment")
+EVENT_KINDS = ("created", "settings", "exclude", "restore", "note", "signal", "freeze", "unfreeze", "causes")
+LIMIT_EVENTS = ("created", "settings", "exclude", "restore", "freeze", "unfreeze")
+"""Events that change the limits and so record them (before and after)."""
+MARKS = ("explained", "no-cause-found", "open")
+"""Signal states a user sets; "excluded" follows from an exclusion that answers the signal."""
+NOTE_KINDS = ("case", "subgroup", "signal")
+
+
+@dataclass(frozen=True)
+class Event:
+    """One entry of the trail, exactly as stored."""
+
+    seq: int
+    """Position in the trail, from 1."""
+    time: str
+    """UTC time, ISO 8601 (``2024-05-01T12:00:00.000Z``)."""
+    author: str
+    """Who did it."""
+    kind: str
+    """One of EVENT_KINDS."""
+    payload: dict
+    """What was done (kind-specific, JSON values)."""
+    prev: str | None
+    """Hash of the previous event (None for the first)."""
+    hash: str
+    """SHA-256 of this event's canonical JSON without this field."""
+    limits_before: dict | None = None
+    """Limits snapshot before the action (limit-changing events), for the reader."""
+    limits_after: dict | None = None
+    """Limits snapshot after the action."""
+    data_bytes: int | None = None
+    """Size of the data file the limits were computed on."""
+
+    def as_dict(self) -> dict[str, Any]:
+        out = {"seq": self.seq, "time": self.time, "author": self.author, "kind": self.kind,
+               "payload": self.payload, "prev": self.prev, "hash": self.hash}
+        for name in ("limits_before", "limits_after", "data_bytes"):
+            if getattr(self, name) is not None:
+                out[name] = getattr(self, name)
+        return out
+
+    @classmethod
+    def from_dict(cls, d: Any, position: int) -> "Event":
+        """Check the shape of one stored event; ``position`` (from 1) names it in errors."""
+        where = f"event {position}"
+        if not isinstance(d, dict):
+            raise WorkbenchError(f"{where}: not a JSON object")
+        allowed = {"seq", "time", "author", "kind", "payload", "prev", "hash", "limits_before", "limits_after",
+                   "data_bytes"}
+        extra = sorted(set(d) - allowed)
+        if extra:
+            raise WorkbenchError(f"{where}: unknown field {extra[0]!r}")
+        seq = d.get("seq")
+        if type(seq) is not int or seq != position:
+            raise WorkbenchError(f"{where}: sequence number {seq!r}, expected {position}")
+        kind = _str(d.get("kind"), where, "kind")
+        if kind not in EVENT_KINDS:
+            raise WorkbenchError(f"{where}: unknown event kind {kind!r}")
+        time = _str(d.get("time"), where, "time")
+        try:
+            datetime.fromisoformat(time)
+        except ValueError:
+            raise WorkbenchError(f"{where}: time {time!r} is not an ISO 8601 timestamp") from None
+        for name in ("payload",):
+            if not isinstance(d.get(name), dict):
+                raise WorkbenchError(f"{where}: {name} must be an object")
+        for name in ("limits_before", "limits_after"):
+            if d.get(name) is not None and not isinstance(d[name], dict):
+                raise WorkbenchError(f"{where}: {name} must be an object")
+        data_bytes = d.get("data_bytes")
+        if data_bytes is not None and (type(data_bytes) is not int or data_bytes < 0):
+            raise WorkbenchError(f"{where}: data_bytes must be a whole number of bytes")
+        prev = d.get("prev")
+        if prev is not None and not _is_hash(prev):
+            raise WorkbenchError(f"{where}: prev is not a SHA-256 hash")
+        if not _is_hash(d.get("hash")):
+            raise WorkbenchError(f"{where}: hash is not a SHA-256 hash")
+        return cls(seq=seq, time=time, author=_str(d.get("author"), where, "author", empty=False), kind=kind,
+                   payload=d["payload"], prev=prev, hash=d["hash"], limits_before=d.get("limits_before"),
+                   limits_after=d.get("limits_after"), data_bytes=data_bytes)
+
+
+@dataclass(frozen=True)
+class ExclusionInfo:
+    """Why a subgroup or reading is left out of the limits."""
+
+    reason: str
+    """The reason given (never empty)."""
+    cause: str | None
+    """Cause category, from the case's list."""
+    signal: str | None
+    """Key of the signal this exclusion answers."""
+    author: str
+    time: str
+    seq: int
+    """The exclude event."""
+
+
+@dataclass(frozen=True)
+class Note:
+    """A note on the case, a subgroup or a signal."""
+
+    target: str
+    """Subgroup key or signal key; empty for the case itself."""
+    text: str
+    author: str
+    time: str
+    seq: int
+    kind: str = "case"
+    """What the note is on: case | subgroup | signal."""
+
+
+@dataclass(frozen=True)
+class SignalState:
+    """The state a user gave a signal."""
+
+    state: str
+    """explained | no-cause-found | open."""
+    note: str | None
+    author: str
+    time: str
+    seq: int = 0
+
+
+@dataclass(frozen=True)
+class CaseState:
+    """The replay of a trail: everything an investigation has decided so far."""
+
+    settings: Settings
+    """The current setup."""
+    exclusions: tuple[Exclusion, ...]
+    """Current exclusions, sorted."""
+    exclusion_info: Mapping[str, ExclusionInfo]
+    """Exclusion key -> why it is excluded."""
+    notes: tuple[Note, ...]
+    """All notes, in trail order."""
+    signal_states: Mapping[str, SignalState]
+    """Signal key -> the state a user set (signals not listed are open)."""
+    frozen: FrozenLimits | None
+    """Frozen Phase I limits, or None."""
+    causes: tuple[str, ...]
+    """The editable list of cause categories."""
+    first_limits: dict | None
+    """Limits as first computed (at creation)."""
+    limits: dict | None
+    """Limits as last recorded."""
+    head_hash: str
+    """Hash of the last event."""
+    seq: int
+    """Number of events."""
+    created_by: str = ""
+    created_time: str = ""
+
+    def signal_state(self, key: str) -> str:
+        """open | explained | no-cause-found | excluded (an exclusion answers it)."""
+        if any(info.signal == key for info in self.exclusion_info.values()):
+            return "excluded"
+        mark = self.signal_states.get(key)
+        return mark.state if mark else "open"
+
+
+@dataclass
+class _Builder:
+    settings: Settings = field(default_factory=Settings)
+    info: dict = field(default_factory=dict)
+    targets: dict = field(default_factory=dict)
+    notes: list = field(default_factory=list)
+    marks: dict = field(default_factory=dict)
+    frozen: FrozenLimits | None = None
+    causes: tuple = DEFAULT_CAUSES
+    first_limits: dict | None = None
+    limits: dict | None = None
+    head: str = ""
+    seq: int = 0
+    created_by: str = ""
+    created_time: str = ""
+
+    @classmethod
+    def of(cls, s: CaseState) -> "_Builder":
+        return cls(s.settings, dict(s.exclusion_info), {e.key: e for e in s.exclusions}, list(s.notes),
+                   dict(s.signal_states), s.frozen, s.causes, s.first_limits, s.limits, s.head_hash, s.seq,
+                   s.created_by, s.created_time)
+
+    def state(self) -> CaseState:
+        return CaseState(self.settings, tuple(sorted(self.targets.values())), dict(self.info), tuple(self.notes),
+                         dict(self.marks), self.frozen, tuple(self.causes), self.first_limits, self.limits,
+                         self.head, self.seq, self.created_by, self.created_time)
+
+    def apply(self, ev: Event) -> None:
+        where, p = f"event {ev.seq}", ev.payload
+        if (ev.kind == "created") != (ev.seq == 1):
+            raise WorkbenchError(f"{where}: the trail must start with exactly one 'created' event")
+        if ev.seq != self.seq + 1:
+            raise WorkbenchError(f"{where}: expected event {self.seq + 1}")
+        _keys(p, where, _PAYLOAD_KEYS[ev.kind])
+        k = ev.kind
+        if k == "created":
+            self.settings = settings_from_dict(p.get("settings"), where)
+            self.causes = _causes(p.get("causes"), where)
+            _str(p.get("data_ref"), where, "data_ref")
+            self.created_by, self.created_time = ev.author, ev.time
+        elif k == "settings":
+            new = settings_from_dict(p.get("settings"), where)
+            if new == self.settings:
+                raise WorkbenchError(f"{where}: the setup did not change")
+            self.settings = new
+        elif k == "causes":
+            self.causes = _causes(p.get("causes"), where)
+        elif k in ("exclude", "restore"):
+            target = exclusion_from_payload(p, where)
+            reason = _str(p.get("reason"), where, "reason", empty=False)
+            if k == "restore":
+                if target.key not in self.targets:
+                    raise WorkbenchError(f"{where}: {target.key} is not excluded")
+                del self.targets[target.key], self.info[target.key]
+            else:
+                if target.key in self.targets:
+                    raise WorkbenchError(f"{where}: {target.key} is already excluded")
+                cause, signal = _opt_str(p.get("cause"), where, "cause"), _opt_str(p.get("signal"), where, "signal")
+                if cause is not None and cause not in self.causes:
+                    raise WorkbenchError(f"{where}: cause {cause!r} is not in the cause list ({', '.join(self.causes)})")
+                self.targets[target.key] = target
+                self.info[target.key] = ExclusionInfo(reason, cause, signal, ev.author, ev.time, ev.seq)
+        elif k == "note":
+            kind = _str(p.get("on"), where, "on")
+            if kind not in NOTE_KINDS:
+                raise WorkbenchError(f"{where}: a note is on one of {', '.join(NOTE_KINDS)}, not {kind!r}")
+            target = _str(p.get("target"), where, "target", empty=kind != "case")
+            self.notes.append(Note(target, _str(p.get("text"), where, "text", empty=False), ev.author, ev.time,
+                                   ev.seq, kind))
+        elif k == "signal":
+            key, mark = _str(p.get("key"), where, "key", empty=False), _str(p.get("state"), where, "state")
+            if mark not in MARKS:
+                raise WorkbenchError(f"{where}: signal state {mark!r} is not one of {', '.join(MARKS)}")
+            self.marks[key] = SignalState(mark, _opt_str(p.get("note"), where, "note"), ev.author, ev.time, ev.seq)
+        elif k == "freeze":
+            if self.frozen is not None:
+                raise WorkbenchError(f"{where}: the limits are already frozen")
+            self.frozen = frozen_from_dict(p.get("frozen"), where)
+        elif k == "unfreeze":
+            if self.frozen is None:
+                raise WorkbenchError(f"{where}: the limits are not frozen")
+            _str(p.get("reason"), where, "reason", empty=False)
+            self.frozen = None
+        if ev.limits_after is not None:
+            if k == "created":
+                self.first_limits = ev.limits_after
+            self.limits = ev.limits_after
+        self.head, self.seq = ev.hash, ev.seq
+
+
+_PAYLOAD_KEYS = {
+    "created": ({"settings", "causes", "data_ref"}, set()),
+    "settings": ({"settings"}, set()),
+    "causes": ({"causes"}, set()),
+    "exclude": ({"subgroup", "reason"}, {"stream", "cause", "signal"}),
+    "restore": ({"subgroup", "reason"}, {"stream"}),
+    "note": ({"on", "target", "text"}, set()),
+    "signal": ({"key", "state"}, {"note"}),
+    "freeze": ({"frozen"}, set()),
+    "unfreeze": ({"reason"}, set()),
+}
+
+
+def replay(events: Iterable[Event]) -> CaseState:
+    """The state a trail leads to; raises WorkbenchError at the first event that does not apply."""
+    b = _Builder()
+    for ev in events:
+        b.apply(ev)
+    if b.seq == 0:
+        raise WorkbenchError("the trail is empty (it must start with a 'created' event)")
+    return b.state()
+
+
+def apply(state: CaseState, event: Event) -> CaseState:
+    """The state after one more event (same checks as :func:`replay`)."""
+    b = _Builder.of(state)
+    b.apply(event)
+    return b.state()
+
+
+# ---- payload pieces -------------------------------------------------------------------------
+
+def exclusion_payload(target: Exclusion) -> dict[str, Any]:
+    return {"subgroup": target.subgroup, "stream": target.stream}
+
+
+def exclusion_from_payload(p: Mapping[str, Any], where: str) -> Exclusion:
+    return Exclusion(_str(p.get("subgroup"), where, "subgroup", empty=False), _opt_str(p.get("stream"), where, "stream"))
+
+
+def settings_from_dict(d: Any, where: str) -> Settings:
+    """Settings from stored JSON, every field type-checked (unknown fields are refused)."""
+    if not isinstance(d, dict):
+        raise WorkbenchError(f"{where}: settings must be an object")
+    kw = _typed_fields(Settings, {k: v for k, v in d.items() if k != "spec"}, where, "setting")
+    spec = d.get("spec")
+    if spec is not None:
+        if not isinstance(spec, dict):
+            raise WorkbenchError(f"{where}: spec must be an object or null")
+        kw["spec"] = Spec(**_typed_fields(Spec, spec, where, "spec field"))
+    out = Settings(**kw)
+    if out.chart != "auto" and out.chart not in CHART_KINDS:
+        raise WorkbenchError(f"{where}: unknown chart kind {out.chart!r}")
+    if out.sigma not in SIGMA_METHODS:
+        raise WorkbenchError(f"{where}: unknown sigma method {out.sigma!r}")
+    return out
+
+
+def frozen_from_dict(d: Any, where: str) -> FrozenLimits:
+    if not isinstance(d, dict) or set(d) - {"chart", "center", "sigma", "subgroups", "limits"}:
+        raise WorkbenchError(f"{where}: frozen limits must be an object with chart, center, sigma, subgroups, limits")
+    ok = (isinstance(d.get("chart"), str) and _is_num(d.get("center")) and _is_num(d.get("sigma"))
+          and type(d.get("subgroups")) is int and isinstance(d.get("limits", {}), dict))
+    if not ok:
+        raise WorkbenchError(f"{where}: frozen limits have a missing or mistyped field")
+    return FrozenLimits.from_dict(d)
+
+
+def _typed_fields(cls: type, d: dict, where: str, what: str) -> dict[str, Any]:
+    known = {f.name: f for f in fields(cls)}
+    out: dict[str, Any] = {}
+    for key, value in d.items():
+        f = known.get(key)
+        if f is None or key == "spec":
+            raise WorkbenchError(f"{where}: unknown {what} {key!r}")
+        default = f.default
+        if isinstance(default, bool):
+            good = isinstance(value, bool)
+        elif isinstance(default, str):
+            good = isinstance(value, str)
+        elif isinstance(default, float) or default is None:
+            good = _is_num(value) or (default is None and value is None)
+        else:
+            good = False
+        if not good:
+            raise WorkbenchError(f"{where}: {what} {key!r} has the wrong type ({type(value).__name__})")
+        out[key] = float(value) if _is_num(value) and not isinstance(default, bool) else value
+    return out
+
+
+def _causes(v: Any, where: str) -> tuple[str, ...]:
+    if not isinstance(v, list) or not all(isinstance(c, str) and c.strip() for c in v) or len(set(v)) != len(v):
+        raise WorkbenchError(f"{where}: causes must be a list of distinct, non-empty names")
+    return tuple(v)
+
+
+def _keys(p: dict, where: str, spec: tuple[set, set]) -> None:
+    need, optional = spec
+    missing = sorted(need - set(p))
+    if missing:
+        raise WorkbenchError(f"{where}: payload lacks {missing[0]!r}")
+    extra = sorted(set(p) - need - optional)
+    if extra:
+        raise WorkbenchError(f"{where}: unknown payload field {extra[0]!r}")
+
+
+def _str(v: Any, where: str, name: str, empty: bool = True) -> str:
+    if not isinstance(v, str) or (not empty and not v.strip()):
+        raise WorkbenchError(f"{where}: {name} must be {'a' if empty else 'a non-empty'} string")
+    return v
+
+
+def _opt_str(v: Any, where: str, name: str) -> str | None:
+    return None if v is None else _str(v, where, name)
+
+
+def _is_num(v: Any) -> bool:
+    return isinstance(v, (int, float)) and not isinstance(v, bool) and v == v and abs(v) != float("inf")
+
+
+def _is_hash(v: Any) -> bool:
+    return isinstance(v, str) and re.fullmatch(r"[0-9a-f]{64}", v) is not None
+
+
+# ---- small helpers for people and views -----------------------------------------------------
+
+def utc_now() -> str:
+    """The current UTC time as ISO 8601 with milliseconds and a ``Z``."""
+    return datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%S.%f")[:-3] + "Z"
+
+
+def default_author(explicit: str | None = None) -> str:
+    """``--author``, else ``WORKBENCH_AUTHOR``, else user@host."""
+    for candidate in (explicit, os.environ.get("WORKBENCH_AUTHOR")):
+        if candidate and candidate.strip():
+            return candidate.strip()
+    try:
+        user = getpass.getuser()
+    except Exception:  # no login name available (containers without a passwd entry)
+        user = "unknown"
+    return f"{user}@{socket.gethostname()}"
+
+
+_ESCAPES = {"\n": "\\n", "\r": "\\r", "\t": "\\t"}
+
+
+def printable(text: str) -> str:
+    """Text with control characters and escape sequences made visible (``"\\x1b"`` -> ``"\\\\x1b"``).
+
+    C0/C1 controls, DEL and invisible format characters (e.g. bidirectional overrides) are
+    shown as escapes; everything else is unchanged.  The stored text is never altered.
+    """
+    out = []
+    for ch in str(text):
+        if ch in _ESCAPES:
+            out.append(_ESCAPES[ch])
+        elif unicodedata.category(ch) in ("Cc", "Cf", "Zl", "Zp"):
+            code = ord(ch)
+            out.append(f"\\x{code:02x}" if code < 0x100 else f"\\u{code:04x}")
+        else:
+            out.append(ch)
+    return "".join(out)
+
+
+def describe(ev: Event) -> str:
+    """One line in plain words for the trail view and reports (text made printable)."""
+    p, q = ev.payload, lambda s: printable(s) if isinstance(s, str) else str(s)
+    if ev.kind in ("exclude", "restore"):
+        what = ("reading " if p.get("stream") is not None else "subgroup ") + q(
+            p["subgroup"] if p.get("stream") is None else f"{p['subgroup']}:{p['stream']}")
+        extra = "".join(f"; {name} {q(p[name])}" for name in ("cause", "signal") if p.get(name))
+        return f"{'excluded' if ev.kind == 'exclude' else 'restored'} {what}: {q(p['reason'])}{extra}"
+    if ev.kind == "note":
+        on = "the case" if p["on"] == "case" else f"{p['on']} {q(p['target'])}"
+        return f"note on {on}: {q(p['text'])}"
+    if ev.kind == "signal":
+        return f"signal {q(p['key'])} marked {p['state']}" + (f": {q(p['note'])}" if p.get("note") else "")
+    if ev.kind == "settings":
+        return "setup changed"
+    if ev.kind == "causes":
+        return "cause list set to " + ", ".join(q(c) for c in p["causes"])
+    if ev.kind == "freeze":
+        return f"limits frozen ({p['frozen'].get('subgroups')} subgroups in Phase I)"
+    if ev.kind == "unfreeze":
+        return f"limits unfrozen: {q(p['reason'])}"
+    return "case created"
+
+
+def settings_changes(old: Settings, new: Settings) -> list[str]:
+    """``name: old -> new`` for each setup field that differs (spec fields as ``spec.lsl``)."""
+    a, b = _flat(old.as_dict()), _flat(new.as_dict())
+    return [f"{k}: {a.get(k)} -> {b.get(k)}" for k in sorted(set(a) | set(b)) if a.get(k) != b.get(k)]
+
+
+def _flat(d: dict, prefix: str = "") -> dict[str, Any]:
+    out: dict[str, Any] = {}
+    for k, v in d.items():
+        if isinstance(v, dict):
+            out.update(_flat(v, f"{prefix}{k}."))
+        else:
+            out[prefix + k] = v
+    return out
+
+
+def snapshot_difference(recorded: Any, computed: Any, rel: float = 1e-9, path: str = "") -> str | None:
+    """Where two limits snapshots differ (numbers compared with relative tolerance ``rel``), or None."""
+    here = path or "limits"
+    if isinstance(recorded, dict) and isinstance(computed, dict):
+        for key in sorted(set(recorded) | set(computed), key=str):
+            if key not in recorded or key not in computed:
+                return f"{path}{key}: present in only one of them"
+            diff = snapshot_difference(recorded[key], computed[key], rel, f"{path}{key}.")
+            if diff:
+                return diff
+        return None
+    here = here.rstrip(".")
+    if isinstance(recorded, list) and isinstance(computed, list):
+        if len(recorded) != len(computed):
+            return f"{here}: {len(recorded)} values recorded, {len(computed)} recomputed"
+        for i, (a, b) in enumerate(zip(recorded, computed)):
+            diff = snapshot_difference(a, b, rel, f"{path.rstrip('.')}[{i}].")
+            if diff:
+                return diff
+        return None
+    numbers = all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in (recorded, computed))
+    if numbers:
+        if math.isclose(recorded, computed, rel_tol=rel, abs_tol=1e-300):
+            return None
+    elif recorded == computed:
+        return None
+    return f"{here}: recorded {recorded!r}, recomputed {computed!r}"
+
+
+def limits_gaps(events: Iterable[Event]) -> list[str]:
+    """Events whose limits before differ from the limits after the previous limit-changing event
+    (on the same data); the check that needs no data."""
+    problems, last = [], None
+    for ev in events:
+        if ev.limits_before is not None and last is not None and last[0] == ev.data_bytes:
+            diff = snapshot_difference(last[1], ev.limits_before)
+            if diff:
+                problems.append(f"event {ev.seq}: its limits before do not follow the previous limits ({diff})")
+        if ev.limits_after is not None:
+            last = (ev.data_bytes, ev.limits_after)
+    return problems

@@ -1,0 +1,150 @@
+"""Control chart constants from their exact definitions.
+
+d2, d3 and c4 are computed, never typed in: c4 from the gamma function, d2 and d3 by
+numerical integration of the distribution of the range of ``n`` standard normal
+readings.  Every other constant (A2, A3, B3, B4, D3, D4, E2) is derived from them.
+Values are cached per ``n``.
+
+References
+----------
+Tippett, L. H. C. (1925). On the extreme individuals and the range of samples taken from a
+normal population. *Biometrika* 17, 364-387 (the expected range, d2).
+Montgomery, D. C. *Introduction to Statistical Quality Control*, Appendix VI (definitions of
+the factors for constructing variables control charts).
+"""
+from __future__ import annotations
+
+from functools import lru_cache
+from math import exp, lgamma, sqrt
+
+import numpy as np
+from scipy import special
+
+from .model import WorkbenchError
+
+MAX_N = 1000
+"""Largest subgroup size for which constants are computed."""
+
+# Gauss-Legendre nodes on [-L, L]; the integrands below are smooth and vanish well inside |x| < 9
+# for every n <= MAX_N, so a fixed high-order rule is accurate to ~1e-12.
+_L = 9.5
+_NODES, _WEIGHTS = np.polynomial.legendre.leggauss(400)
+_X = _NODES * _L
+_W = _WEIGHTS * _L
+_PHI = special.ndtr(_X)
+_LOG_PHI = special.log_ndtr(_X)
+_LOG_1M_PHI = special.log_ndtr(-_X)
+
+
+def _check_n(n: int) -> int:
+    if int(n) != n or n < 2 or n > MAX_N:
+        raise WorkbenchError(f"chart constants need a subgroup size between 2 and {MAX_N}, not {n}")
+    return int(n)
+
+
+@lru_cache(maxsize=None)
+def c4(n: int) -> float:
+    """Bias-correction factor of the sample standard deviation, E[s] = c4·σ.
+
+    c4(n) = sqrt(2/(n-1)) · Γ(n/2) / Γ((n-1)/2), computed with log-gamma.
+
+    References
+    ----------
+    Montgomery, *Introduction to Statistical Quality Control*, Appendix VI.
+    """
+    n = _check_n(n)
+    return sqrt(2.0 / (n - 1)) * exp(lgamma(n / 2.0) - lgamma((n - 1) / 2.0))
+
+
+@lru_cache(maxsize=None)
+def d2(n: int) -> float:
+    """Expected range of ``n`` standard normal readings.
+
+    d2(n) = ∫ [1 − Φ(x)^n − (1 − Φ(x))^n] dx over the real line.
+
+    References
+    ----------
+    Tippett (1925), *Biometrika* 17.
+    """
+    n = _check_n(n)
+    integrand = 1.0 - np.exp(n * _LOG_PHI) - np.exp(n * _LOG_1M_PHI)
+    return float(np.dot(_W, integrand))
+
+
+@lru_cache(maxsize=None)
+def d3(n: int) -> float:
+    """Standard deviation of the range of ``n`` standard normal readings.
+
+    E[W²] = 2 ∬_{y<x} [1 − Φ(x)^n − (1−Φ(y))^n + (Φ(x) − Φ(y))^n] dy dx and
+    d3 = sqrt(E[W²] − d2²).
+
+    References
+    ----------
+    Montgomery, *Introduction to Statistical Quality Control*, Appendix VI (definition);
+    the double integral follows from P(W > w) for the range of a normal sample.
+    """
+    n = _check_n(n)
+    # Inner integral over y in (-L, x) for each outer node x, by a Gauss-Legendre rule mapped
+    # onto that interval.
+    t, wt = np.polynomial.legendre.leggauss(200)
+    x = _X[:, None]
+    half = (x + _L) / 2.0
+    y = half * t[None, :] + (x - _L) / 2.0  # nodes on (-L, x)
+    wy = half * wt[None, :]
+    phi_x = _PHI[:, None]
+    phi_y = special.ndtr(y)
+    diff = np.clip(phi_x - phi_y, 0.0, 1.0)
+    f = 1.0 - np.exp(n * _LOG_PHI)[:, None] - np.exp(n * special.log_ndtr(-y)) + diff**n
+    inner = np.sum(f * wy, axis=1)
+    ew2 = 2.0 * float(np.dot(_W, inner))
+    return sqrt(max(ew2 - d2(n) ** 2, 0.0))
+
+
+def a2(n: int) -> float:
+    """A2 = 3 / (d2·√n): X̄ chart limits from R̄."""
+    return 3.0 / (d2(n) * sqrt(n))
+
+
+def a3(n: int) -> float:
+    """A3 = 3 / (c4·√n): X̄ chart limits from S̄."""
+    return 3.0 / (c4(n) * sqrt(n))
+
+
+def b3(n: int) -> float:
+    """B3 = max(0, 1 − 3·√(1−c4²)/c4): S chart lower factor."""
+    c = c4(n)
+    return max(0.0, 1.0 - 3.0 * sqrt(1.0 - c * c) / c)
+
+
+def b4(n: int) -> float:
+    """B4 = 1 + 3·√(1−c4²)/c4: S chart upper factor."""
+    c = c4(n)
+    return 1.0 + 3.0 * sqrt(1.0 - c * c) / c
+
+
+def d3_factor(n: int) -> float:
+    """D3 = max(0, 1 − 3·d3/d2): R chart lower factor (named D3 in the tables)."""
+    return max(0.0, 1.0 - 3.0 * d3(n) / d2(n))
+
+
+def d4_factor(n: int) -> float:
+    """D4 = 1 + 3·d3/d2: R chart upper factor."""
+    return 1.0 + 3.0 * d3(n) / d2(n)
+
+
+def e2(n: int = 2) -> float:
+    """E2 = 3 / d2: individuals chart limits from the average moving range of span n."""
+    return 3.0 / d2(n)
+
+
+def table(ns: np.ndarray, fn) -> np.ndarray:
+    """Evaluate a constant for an array of subgroup sizes (NaN where n < 2)."""
+    ns = np.asarray(ns)
+    if ns.size and ns.min() == ns.max():
+        v = fn(int(ns.flat[0])) if ns.flat[0] >= 2 else np.nan
+        return np.full(ns.shape, v)
+    out = np.full(ns.shape, np.nan)
+    for n in np.unique(ns):
+        if n >= 2:
+            out[ns == n] = fn(int(n))
+    return out

@@ -1,0 +1,270 @@
+"""Headless report views of an Analysis: JSON, plain text and Markdown.
+
+Views only format; every figure comes from :func:`workbench.core.analysis.analyse`.
+"""
+from __future__ import annotations
+
+import json
+import math
+from typing import Any
+
+import numpy as np
+
+from .analysis import sigma_label
+from .model import Analysis, ChartResult, WorkbenchError
+
+SCHEMA = "workbench.report/1"
+MAX_TEXT_SIGNALS = 40
+
+
+def _num(v: Any) -> float | None:
+    if v is None:
+        return None
+    v = float(v)
+    return v if math.isfinite(v) else None
+
+
+def _list(a: np.ndarray) -> list:
+    out = a.tolist()
+    bad = np.flatnonzero(~np.isfinite(a))
+    for i in bad.tolist():
+        out[i] = None
+    return out
+
+
+def _limit(a: np.ndarray) -> Any:
+    finite = np.isfinite(a)
+    if finite.all() and a.size and np.all(a == a[0]):
+        return float(a[0])
+    if not finite.any():
+        return None
+    return _list(a)
+
+
+def chart_json(c: ChartResult, with_values: bool = True) -> dict[str, Any]:
+    out: dict[str, Any] = {"name": c.name, "title": c.title, "role": c.role,
+                           "center": _limit(c.center), "lcl": _limit(c.lcl), "ucl": _limit(c.ucl),
+                           "rules": list(c.rules)}
+    if with_values:
+        out["values"] = _list(c.values)
+        for k, v in c.extra.items():
+            out[k] = _list(v)
+    return out
+
+
+def signal_json(a: Analysis, s, states: dict | None = None) -> dict[str, Any]:
+    labels = a.dataset.labels
+    out = {"key": s.key, "chart": s.chart, "rule": s.rule, "description": s.description, "first": s.first,
+           "last": s.last, "points": list(s.points), "fired": list(s.fired),
+           "subgroups": [str(labels[p]) for p in s.points]}
+    if states is not None:
+        st = states.get(s.key)
+        out["state"] = getattr(st, "state", st) or "open"
+    if a.phase2_start is not None:
+        out["phase"] = 2 if s.last >= a.phase2_start else 1
+    return out
+
+
+def report_json(a: Analysis, states: dict | None = None, with_values: bool = True) -> dict[str, Any]:
+    """The JSON report (schema ``workbench.report/1``); contains no NaN."""
+    ds = a.dataset
+    out: dict[str, Any] = {
+        "schema": SCHEMA,
+        "source": {"path": ds.path, "sha256": ds.sha256, "rows": ds.rows, "bytes": ds.size_bytes,
+                   "encoding": ds.encoding, "missing_cells": ds.missing, "skipped_cells": ds.skipped_bad},
+        "layout": ds.layout.as_dict(),
+        "chart": a.chart,
+        "subgroups": ds.m,
+        "streams": list(ds.streams),
+        "sigma": {"within": _num(a.sigma_within), "method": sigma_label(a), "overall": _num(a.sigma_overall)},
+        "center": _num(a.center),
+        "rules": {c.name: list(c.rules) for c in a.charts},
+        "charts": [chart_json(c, with_values) for c in a.charts],
+        "flags": {c.name: {rid: pos.tolist() for rid, pos in c.flags.items()} for c in a.charts},
+        "signals": [signal_json(a, s, states) for s in a.signals],
+        "excluded": [{"subgroup": e.subgroup, "stream": e.stream, "position": ds.index_of(e.subgroup)}
+                     for e in a.exclusions],
+        "phase2_start": a.phase2_start,
+        "warnings": list(a.warnings),
+        "notices": list(ds.notices),
+        "labels": [str(x) for x in ds.labels.tolist()] if with_values else None,
+        "capability": None,
+        "streams_comparison": None,
+    }
+    if a.phase2_start is not None:
+        out["phase"] = {"start": a.phase2_start, "frozen": True}
+    cmp_ = a.comparison
+    if cmp_ is not None:
+        out["streams_comparison"] = {
+            "streams": list(cmp_.streams), "means": [_num(x) for x in cmp_.means],
+            "sds": [_num(x) for x in cmp_.sds], "counts": list(cmp_.counts),
+            "anova": {"f": cmp_.anova_f, "p": cmp_.anova_p, "method": "one-way ANOVA (scipy.stats.f_oneway)"},
+            "kruskal_wallis": {"h": cmp_.kruskal_h, "p": cmp_.kruskal_p, "method": "scipy.stats.kruskal"},
+            "variance": {"between": cmp_.var_between, "within": cmp_.var_within, "share_between": cmp_.share_between},
+            "differ": cmp_.differ, "advice": cmp_.advice}
+    cap = a.capability
+    if cap is not None:
+        from .capability_report import capability_json
+        out["capability"] = capability_json(cap)
+    return out
+
+
+def dumps(obj: Any) -> str:
+    return json.dumps(obj, allow_nan=False, ensure_ascii=False, separators=(",", ":"))
+
+
+def fmt(v: Any, digits: int = 4) -> str:
+    """A number for people: up to ``digits`` decimals, '—' for missing or undefined."""
+    if v is None:
+        return "—"
+    if isinstance(v, dict):
+        return f"{fmt(v.get('min'), digits)} … {fmt(v.get('max'), digits)} (varies)"
+    v = float(v)
+    if not math.isfinite(v):
+        return "—"
+    if v != 0 and (abs(v) >= 1e6 or abs(v) < 10 ** -digits):
+        return f"{v:.{digits}g}"
+    text = f"{v:.{digits}f}".rstrip("0").rstrip(".")
+    return "0" if text in ("-0", "") else text
+
+
+def _limits_lines(a: Analysis) -> list[str]:
+    from .analysis import limits_snapshot
+    snap = limits_snapshot(a)["charts"]
+    lines = []
+    for c in a.charts:
+        s = snap[c.name]
+        lines.append(f"  {c.name:<6} {c.title:<30} centre {fmt(s['center'])}   LCL {fmt(s['lcl'])}   "
+                     f"UCL {fmt(s['ucl'])}")
+    return lines
+
+
+def describe_mapping(a: Analysis) -> str:
+    lay = a.dataset.layout.as_dict()
+    detected = lay.pop("detected", True)
+    kind = lay.pop("kind")
+    streams = lay.pop("streams", None)
+    parts = [f"{k}={v}" for k, v in lay.items()]
+    if streams:
+        parts.append("streams=" + ",".join(streams))
+    return f"{kind}: " + ", ".join(parts) + (" (detected)" if detected else " (given)")
+
+
+def report_text(a: Analysis, states: dict | None = None, width: int = 100) -> str:
+    """A readable terminal summary."""
+    ds = a.dataset
+    L = [f"workbench report — {ds.path}",
+         f"data      {ds.rows} rows, {ds.m} subgroups, {ds.k} stream(s): {', '.join(ds.streams[:12])}"
+         + (" …" if ds.k > 12 else ""),
+         f"sha256    {ds.sha256}",
+         f"mapping   {describe_mapping(a)}"]
+    for n in ds.notices:
+        L.append(f"notice    {n}")
+    L.append(f"chart     {a.chart}   sigma (within) {fmt(a.sigma_within)} by {sigma_label(a)}   "
+             f"overall SD {fmt(a.sigma_overall)}")
+    if a.phase2_start is not None:
+        L.append(f"phase     limits frozen; Phase II starts at subgroup {ds.labels[a.phase2_start]} "
+                 f"(position {a.phase2_start})")
+    L.append("limits")
+    L.extend(_limits_lines(a))
+    for w in a.warnings:
+        L.append(f"warning   {w}")
+    L.append("")
+    L.append(f"signals   {len(a.signals)}")
+    for s in a.signals[:MAX_TEXT_SIGNALS]:
+        st = ""
+        if states is not None:
+            v = states.get(s.key)
+            st = f"  [{getattr(v, 'state', v) or 'open'}]"
+        span = ds.labels[s.first] if s.first == s.last else f"{ds.labels[s.first]} … {ds.labels[s.last]}"
+        L.append(f"  {s.chart:<5} {s.rule:<14} {span}  — {s.description}{st}")
+    if len(a.signals) > MAX_TEXT_SIGNALS:
+        L.append(f"  … {len(a.signals) - MAX_TEXT_SIGNALS} more (use --format json for all)")
+    if a.exclusions:
+        L.append("")
+        L.append(f"excluded  {len(a.exclusions)}: " + ", ".join(e.key for e in a.exclusions[:30])
+                 + (" …" if len(a.exclusions) > 30 else ""))
+    cmp_ = a.comparison
+    if cmp_ is not None:
+        L.append("")
+        L.append("streams   " + "  ".join(f"{s} {fmt(m)}±{fmt(sd, 3)}" for s, m, sd in
+                                          zip(cmp_.streams[:8], cmp_.means, cmp_.sds)))
+        L.append(f"          ANOVA F {fmt(cmp_.anova_f)} p {fmt(cmp_.anova_p)}; Kruskal–Wallis H "
+                 f"{fmt(cmp_.kruskal_h)} p {fmt(cmp_.kruskal_p)}")
+        L.append(f"          {cmp_.advice}")
+    cap = a.capability
+    if cap is not None:
+        from .capability_report import capability_text
+        L.append("")
+        L.append(capability_text(cap, width=width))
+    return "\n".join(L) + "\n"
+
+
+def _md_escape(text: str) -> str:
+    from .case import printable
+    return printable(str(text)).replace("|", "\\|")
+
+
+def report_markdown(a: Analysis, states: dict | None = None) -> str:
+    """A review document."""
+    ds = a.dataset
+    esc = _md_escape
+    L = [f"# Control chart review — {esc(ds.path)}", "",
+         "## Data", "",
+         "| item | value |", "|---|---|",
+         f"| file | `{esc(ds.path)}` |", f"| SHA-256 | `{ds.sha256}` |", f"| rows | {ds.rows} |",
+         f"| subgroups | {ds.m} |", f"| streams | {esc(', '.join(ds.streams))} |",
+         f"| mapping | {esc(describe_mapping(a))} |", ""]
+    for n in ds.notices:
+        L.append(f"- Notice: {esc(n)}")
+    L += ["", "## Chart and limits", "",
+          f"Chart **{a.chart}**, within-subgroup sigma **{fmt(a.sigma_within)}** ({sigma_label(a)}), "
+          f"overall SD {fmt(a.sigma_overall)}.", "",
+          "| chart | centre | LCL | UCL | rules |", "|---|---|---|---|---|"]
+    from .analysis import limits_snapshot
+    snap = limits_snapshot(a)["charts"]
+    for c in a.charts:
+        s = snap[c.name]
+        L.append(f"| {c.name} — {c.title} | {fmt(s['center'])} | {fmt(s['lcl'])} | {fmt(s['ucl'])} | "
+                 f"{', '.join(c.rules)} |")
+    if a.phase2_start is not None:
+        L += ["", "## Phase II", "",
+              f"Limits are frozen. Phase II starts at subgroup {esc(ds.labels[a.phase2_start])} "
+              f"(position {a.phase2_start}); {ds.m - a.phase2_start} new subgroup(s) judged against the frozen limits.",
+              ""]
+        p2 = [s for s in a.signals if s.last >= a.phase2_start]
+        L.append(f"Phase II signals: {len(p2)}.")
+    if a.warnings:
+        L += ["", "## Warnings", ""] + [f"- {esc(w)}" for w in a.warnings]
+    L += ["", f"## Signals ({len(a.signals)})", ""]
+    if a.signals:
+        L += ["| chart | rule | subgroups | state | description |", "|---|---|---|---|---|"]
+        for s in a.signals:
+            v = (states or {}).get(s.key)
+            state = getattr(v, "state", v) or "open"
+            span = ds.labels[s.first] if s.first == s.last else f"{ds.labels[s.first]} … {ds.labels[s.last]}"
+            L.append(f"| {s.chart} | {s.rule} | {esc(span)} | {state} | {s.description} |")
+    else:
+        L.append("No signals.")
+    cmp_ = a.comparison
+    if cmp_ is not None:
+        L += ["", "## Streams", "", "| stream | mean | SD | readings |", "|---|---|---|---|"]
+        for s, m, sd, n in zip(cmp_.streams, cmp_.means, cmp_.sds, cmp_.counts):
+            L.append(f"| {esc(s)} | {fmt(m)} | {fmt(sd)} | {n} |")
+        L += ["", f"One-way ANOVA F = {fmt(cmp_.anova_f)}, p = {fmt(cmp_.anova_p)}; Kruskal–Wallis H = "
+                  f"{fmt(cmp_.kruskal_h)}, p = {fmt(cmp_.kruskal_p)}.", "", esc(cmp_.advice)]
+    cap = a.capability
+    if cap is not None:
+        from .capability_report import capability_markdown
+        L += ["", capability_markdown(cap)]
+    return "\n".join(L) + "\n"
+
+
+def render(a: Analysis, fmt_name: str, states: dict | None = None) -> str:
+    if fmt_name == "json":
+        return dumps(report_json(a, states)) + "\n"
+    if fmt_name == "text":
+        return report_text(a, states)
+    if fmt_name == "markdown":
+        return report_markdown(a, states)
+    raise WorkbenchError(f"unknown report format {fmt_name!r} (text, markdown, json)")
