@@ -108,7 +108,8 @@ def settings_from_args(args: argparse.Namespace, base: Settings | None = None) -
     d["spec"] = spec or None
     settings = Settings.from_dict(d)
     from .core.rules import resolve
-    resolve(settings.rules)
+    if settings.rules:
+        resolve(settings.rules)
     resolve(settings.spread_rules)
     if settings.spec is not None:
         if settings.spec.lsl is None and settings.spec.usl is None:

@@ -161,10 +161,14 @@ def test_laney_recommended_on_overdispersed_large_samples():
     sizes = rng.integers(4000, 6000, 40)
     counts = rng.binomial(sizes, rng.beta(50, 450, 40))  # p around 0.10, between-subgroup SD ≈ 0.013
     plain, plain_info = attribute_chart("p", counts, sizes, none(40), laney="off")
-    auto, info = attribute_chart("p", counts, sizes, none(40), laney="auto")
-    assert info.sigma_z > 2 and info.laney_recommended and info.laney_used
-    assert plain_info.laney_recommended and not plain_info.laney_used
-    assert "advised" in plain_info.warnings[0] and "Laney p′ limits used because" in info.warnings[0]
+    offer, offer_info = attribute_chart("p", counts, sizes, none(40), laney="auto")
+    auto, info = attribute_chart("p", counts, sizes, none(40), laney="on")
+    # auto offers the correction (a warning) and keeps the plain limits; on applies it
+    assert offer_info.laney_recommended and not offer_info.laney_used and "offered" in offer_info.warnings[0]
+    assert np.array_equal(offer.ucl, plain.ucl)
+    assert info.sigma_z > 2 and info.laney_used
+    assert plain_info.laney_recommended and not plain_info.laney_used and not plain_info.warnings
+    assert "Laney p′ limits used on request" in info.warnings[0]
     assert np.all(auto.ucl - auto.center == pytest.approx((plain.ucl - plain.center) * info.sigma_z))
     assert beyond(plain).size > 10 > beyond(auto).size
 

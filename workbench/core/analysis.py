@@ -261,6 +261,9 @@ def _analyse_attribute(ds, settings, excl, chart, ex_sub, ex_cells, phase2, warn
         sizes = np.nansum(np.where(ex_cells & ~ex_sub[:, None], 0.0, ds.sizes), axis=1)
     res, info = attribute.attribute_chart(chart, counts, sizes, ex_sub, settings.laney)
     warnings.extend(info.warnings)
+    note = attribute.rules_warning(R.resolve(location_rules(settings, chart)).ids)
+    if note:
+        warnings.append(note)
     charts, signals = _apply_rules(ds, [res], settings, chart)
     center = float(np.nanmean(res.center))
     sig = float(np.nanmean(res.sigma))
@@ -273,8 +276,15 @@ def _analyse_attribute(ds, settings, excl, chart, ex_sub, ex_cells, phase2, warn
     )
 
 
+def location_rules(settings: Settings, kind: str) -> str:
+    """The location chart's rule set: as set, or the default for the chart kind."""
+    if settings.rules:
+        return settings.rules
+    return "limits-only" if kind in ATTRIBUTE_CHARTS else "western-electric"
+
+
 def _apply_rules(ds: Dataset, charts: list[ChartResult], settings: Settings, kind: str):
-    loc_rules = R.resolve(settings.rules)
+    loc_rules = R.resolve(location_rules(settings, kind))
     spread_rules = R.resolve(settings.spread_rules)
     out: list[ChartResult] = []
     signals: list[Signal] = []

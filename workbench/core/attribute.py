@@ -7,8 +7,8 @@ n for np) is set to that value.
 
 Laney's correction (p and u only) multiplies the sigma of every point by sigma_z, the
 spread of the points' z-scores estimated from their average moving range / 1.128.  With
-sigma_z = 1 it is the plain chart.  Under ``laney="auto"`` it is used when the counts are
-clearly overdispersed, by this rule:
+sigma_z = 1 it is the plain chart.  Under ``laney="auto"`` it is *offered* (a warning
+advises it, the plain limits stay) when the counts are clearly overdispersed, by this rule:
 
     sigma_z > 1.5  and  the chi-square dispersion test rejects at the 1% level.
 
@@ -16,8 +16,8 @@ Basis: sigma_z > 1.5 means the plain limits are at least a third too tight (the 
 suggested in the issue); the test, X² = Σ z_i² on m − 1 degrees of freedom (Pearson's
 binomial / Poisson index-of-dispersion test), guards against a chance excess: with 10
 subgroups sigma_z passes 1.5 about 6% of the time on in-control data (simulation, SD of
-sigma_z ≈ 0.30 for m = 10, 0.21 for m = 20).  ``"on"`` always applies it, ``"off"`` never
-does but warns when it would have been used.  np and c charts get the dispersion warning
+sigma_z ≈ 0.30 for m = 10, 0.21 for m = 20).  ``"on"`` applies it, ``"off"`` never does (and
+says nothing); the engineer decides, because switching silently would hide the textbook signals.  np and c charts get the dispersion warning
 but no correction (use p or u).
 """
 from __future__ import annotations
@@ -128,7 +128,7 @@ def attribute_chart(kind: str, counts: np.ndarray, sizes: np.ndarray | None, exc
     overdispersed = sigma_z is not None and sigma_z > LANEY_SIGMA_Z and dispersion_p < DISPERSION_ALPHA
     offered = kind in LANEY_CHARTS
     recommended = overdispersed and offered
-    used_laney = sigma_z is not None and offered and (laney == "on" or (laney == "auto" and recommended))
+    used_laney = sigma_z is not None and offered and laney == "on"
     if sigma_z is not None:
         spread = (f"the subgroups vary more than {_MODEL[kind]} sampling explains "
                   f"(sigma_z {sigma_z:.2f}, dispersion test {_p_text(dispersion_p)})")
@@ -136,7 +136,9 @@ def attribute_chart(kind: str, counts: np.ndarray, sizes: np.ndarray | None, exc
             how = "on request" if laney == "on" else "because " + spread
             warnings.append(f"Laney {kind}′ limits used {how}")
         elif recommended:
-            warnings.append(f"{spread}: the plain limits are too tight; Laney {kind}′ limits are advised")
+            if laney == "auto":
+                warnings.append(f"{spread}: the plain limits may be too tight; Laney {kind}′ limits are "
+                                "offered (setup: Laney correction on, or --laney on)")
         elif overdispersed:
             other = "p" if kind == "np" else "u"
             warnings.append(f"{spread}; Laney's correction is not offered for {kind} charts, use a {other} chart")

@@ -257,10 +257,9 @@ def assess(readings: np.ndarray, sigma_within: float | None, sigma_method: str, 
         warn.append(f"All {n} readings are equal: \u03c3 overall is 0, so the indices, ppm and the normality "
                     "test are undefined and not reported (gauge resolution too coarse?).")
     ratio = s / sw if sw and s > 0 else None
-    if method == "normal":
-        w = words.sigma_ratio_warning(ratio)
-        if w:
-            warn.append(w)
+    w = words.sigma_ratio_warning(ratio, method)
+    if w:
+        warn.append(w)
 
     c = Indices(None, None, None, None)
     cpm = cpm_ci = kk = percentiles = None
@@ -323,6 +322,10 @@ def density_curve(cap: Capability, x: np.ndarray) -> np.ndarray:
     Normal method: normal(mean, sigma overall); box-cox: the back-transformed normal including
     the Jacobian; percentile: the chosen fitted distribution.  NaN everywhere when the readings
     have no spread (no density exists).
+
+    References
+    ----------
+    Box and Cox (1964) for the back-transformed density f(x) = phi((T(x) - m)/s)/s * x^(lambda - 1).
     """
     x = np.asarray(x, dtype=float)
     if cap.sigma_overall <= 0:

@@ -66,6 +66,10 @@ def boxcox_info(fit: FitInfo, x: np.ndarray, lsl: float | None, usl: float | Non
     y = boxcox(x + shift, lam)
     t = lambda v: None if v is None else float(boxcox(v + shift, lam))  # noqa: E731
     sd = float(y.std(ddof=1))
+    for v in (t(lsl), t(usl)):
+        if v is not None and not np.isfinite(v):
+            raise WorkbenchError(f"Box-Cox with \u03bb = {lam:.4g} cannot transform the limits (overflow); "
+                                 "use the percentile method")
     return BoxCoxInfo(lam, shift, float(y.mean()), sd, t(lsl), t(usl), t(target),
                       normality(y) if y.size >= 3 and sd > 0 else None)
 
@@ -94,7 +98,11 @@ def resolve_method(x: np.ndarray, s: float, spec: Spec, lsl: float | None, usl: 
         bad = _limits_transformable(lsl, usl, shift or 0.0)
         if bad:
             raise WorkbenchError(f"Box-Cox: {bad}; give only the other limit or state a shift")
-        fit = choose(fit_models(x, shift, ("box-cox",) + CANDIDATES), "box-cox")
+        fit = fit_models(x, shift, ("box-cox",) + CANDIDATES)
+        if all(c.name != "box-cox" for c in fit.candidates):
+            reason = next((r for r in fit.skipped if r.startswith("box-cox")), "box-cox: the fit failed")
+            raise WorkbenchError(f"Box-Cox could not be applied ({reason}); use the percentile method")
+        fit = choose(fit, "box-cox")
         bc = boxcox_info(fit, x, lsl, usl, target)
         after = f" after a shift of {shift:g}" if shift else ""
         return ("box-cox", f"the box-cox method was asked for; \u03bb = {bc.lam:.4g} by maximum likelihood{after}",
@@ -116,6 +124,10 @@ def resolve_method(x: np.ndarray, s: float, spec: Spec, lsl: float | None, usl: 
     fit = fit_models(x, shift, CANDIDATES if bad else CANDIDATES + ("box-cox",))
     if bad:
         fit = dataclasses.replace(fit, skipped=fit.skipped + (f"box-cox: {bad}",))
+    if len(fit.candidates) == 1:
+        warn.append("The readings do not look normal, but no other model could be fitted (" + "; ".join(fit.skipped)
+                    + "): the normal model is kept; treat the expected ppm with caution.")
+        return "normal", f"{rejected}, but no other model could be fitted", fit, None
     if fit.distribution == "normal":
         warn.append("The readings do not look normal, but no other model fits them better by AIC: the normal "
                     "model is kept; treat the expected ppm with caution.")

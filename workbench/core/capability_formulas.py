@@ -214,7 +214,12 @@ def fallout(lsl: float | None, usl: float | None, cdf_lsl: float | None, sf_usl:
 
 
 def normal_fallout(mean: float, sigma: float | None, lsl: float | None, usl: float | None) -> Fallout | None:
-    """Expected ppm below LSL / above USL of a normal(mean, sigma) process; None without sigma > 0."""
+    """Expected ppm below LSL / above USL of a normal(mean, sigma) process; None without sigma > 0.
+
+    References
+    ----------
+    Follows from the normal model: 1e6 Phi((LSL - mean)/sigma) and 1e6 (1 - Phi((USL - mean)/sigma)).
+    """
     if sigma is None or not math.isfinite(sigma) or sigma <= 0:
         return None
     dist = stats.norm(mean, sigma)

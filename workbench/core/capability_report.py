@@ -136,7 +136,8 @@ def _fit_line(cap: Capability) -> str | None:
     params = ", ".join(f"{k} {v:.4g}" for k, v in fit.params)
     text = f"Fitted model: {fit.distribution} ({params}), AIC {fit.aic:.1f}"
     if fit.runner_up:
-        text += f"; runner-up {fit.runner_up}, AIC {fit.runner_up_aic:.1f}"
+        lower = fit.runner_up_aic < fit.aic   # the chosen model was asked for, not picked by AIC
+        text += f"; {'best alternative' if lower else 'runner-up'} {fit.runner_up}, AIC {fit.runner_up_aic:.1f}"
     return text + (f"; not fitted: {'; '.join(fit.skipped)}" if fit.skipped else "") + "."
 
 

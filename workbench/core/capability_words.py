@@ -8,13 +8,11 @@ SIGMA_RATIO_LIMIT = 1.33
 SMALL_N = 30
 """Fewer readings than this draw a warning about wide confidence bounds."""
 THRESHOLDS = (
-    (1.00, "1.00 is the usual bare minimum for a capable process"),
+    (1.00, "1.00 the bare minimum for a capable process"),
     (1.33, "1.33 the usual minimum for an existing process"),
-    (1.67, "1.67 often asked for new processes and critical characteristics (Montgomery recommends "
-           "1.33 for existing processes, 1.50 for new ones and 1.67 for new processes on a critical "
-           "parameter, two-sided specifications)"),
-    (2.00, "2.00 corresponds to \u201csix sigma\u201d quality (Cpk 1.5, about 3.4 ppm, after the "
-           "conventional 1.5\u03c3 shift)"),
+    (1.67, "1.67 often asked for new or critical characteristics (Montgomery recommends 1.33 for "
+           "existing processes, 1.50 for new ones, 1.67 for new ones on a critical parameter; two-sided)"),
+    (2.00, "2.00 \u201csix sigma\u201d quality (Cpk 1.5, about 3.4 ppm, after the conventional 1.5\u03c3 shift)"),
 )
 ESTIMATES = ("Capability figures are estimates from a sample: they support, and do not replace, the "
              "customer's requirements, the quality system and local regulations.")
@@ -85,15 +83,17 @@ def verdict(name: str | None, value: float | None, ci: tuple[float, float] | Non
 
 def common_practice(name: str | None, value: float | None) -> str:
     """Where the headline index stands against the common thresholds 1.00 / 1.33 / 1.67 / 2.00."""
-    text = "Common practice, not a requirement: " + ", ".join(t for _, t in THRESHOLDS) + "."
+    text = "Common practice, not requirements: " + "; ".join(t for _, t in THRESHOLDS) + "."
     if name is None or value is None:
         return text
     reached = [t for t, _ in THRESHOLDS if value >= t]
-    if not reached:
-        return f"{text} {name} {num(value)} is below 1.00."
     above = [t for t, _ in THRESHOLDS if value < t]
-    tail = f" but not {above[0]:.2f}" if above else ""
-    return f"{text} {name} {num(value)} reaches {reached[-1]:.2f}{tail}."
+    if not reached:
+        band = f"{name} {num(value)} is below the common 1.00."
+    else:
+        band = f"{name} {num(value)} reaches the common {reached[-1]:.2f}" + (
+            f" but not {above[0]:.2f}." if above else ".")
+    return f"{band} {text}"
 
 
 def stability_warning(open_signals: int) -> str | None:
@@ -105,14 +105,15 @@ def stability_warning(open_signals: int) -> str | None:
             "describe the readings so far and do not predict future output.")
 
 
-def sigma_ratio_warning(ratio: float | None) -> str | None:
+def sigma_ratio_warning(ratio: float | None, method: str = "normal") -> str | None:
     """Warn when sigma_overall / sigma_within is outside [1/1.33, 1.33]."""
     if ratio is None or not math.isfinite(ratio):
         return None
     if ratio > SIGMA_RATIO_LIMIT:
+        tail = ("; Ppk describes the readings as made, Cpk only the short-term potential."
+                if method == "normal" else ".")
         return (f"\u03c3 overall is {ratio:.2f} \u00d7 \u03c3 within (more than {SIGMA_RATIO_LIMIT}\u00d7): "
-                "a sign of variation between subgroups (shifts, drift or a poor subgrouping); Ppk describes "
-                "the readings as made, Cpk only the short-term potential.")
+                "a sign of variation between subgroups (shifts, drift or a poor subgrouping)" + tail)
     if ratio < 1.0 / SIGMA_RATIO_LIMIT:
         return (f"\u03c3 within is {1.0 / ratio:.2f} \u00d7 \u03c3 overall (more than {SIGMA_RATIO_LIMIT}\u00d7): "
                 "unusual; check the subgrouping and the sigma estimator.")

@@ -153,7 +153,7 @@ class CaseState:
     settings: Settings
     """The current setup."""
     exclusions: tuple[Exclusion, ...]
-    """Current exclusions, sorted."""
+    """Current exclusions, sorted by :func:`exclusion_order`."""
     exclusion_info: Mapping[str, ExclusionInfo]
     """Exclusion key -> why it is excluded."""
     notes: tuple[Note, ...]
@@ -206,7 +206,8 @@ class _Builder:
                    s.created_by, s.created_time)
 
     def state(self) -> CaseState:
-        return CaseState(self.settings, tuple(sorted(self.targets.values())), dict(self.info), tuple(self.notes),
+        return CaseState(self.settings, tuple(sorted(self.targets.values(), key=exclusion_order)), dict(self.info),
+                         tuple(self.notes),
                          dict(self.marks), self.frozen, tuple(self.causes), self.first_limits, self.limits,
                          self.head, self.seq, self.created_by, self.created_time)
 
@@ -249,7 +250,9 @@ class _Builder:
             kind = _str(p.get("on"), where, "on")
             if kind not in NOTE_KINDS:
                 raise WorkbenchError(f"{where}: a note is on one of {', '.join(NOTE_KINDS)}, not {kind!r}")
-            target = _str(p.get("target"), where, "target", empty=kind != "case")
+            target = _str(p.get("target"), where, "target", empty=kind == "case")
+            if kind == "case" and target:
+                raise WorkbenchError(f"{where}: a note on the case has no target")
             self.notes.append(Note(target, _str(p.get("text"), where, "text", empty=False), ev.author, ev.time,
                                    ev.seq, kind))
         elif k == "signal":
@@ -305,6 +308,11 @@ def apply(state: CaseState, event: Event) -> CaseState:
 
 # ---- payload pieces -------------------------------------------------------------------------
 
+def exclusion_order(ex: Exclusion) -> tuple[str, bool, str]:
+    """Sort key: by label, a whole subgroup before its single readings (``None`` streams sort first)."""
+    return ex.subgroup, ex.stream is not None, ex.stream or ""
+
+
 def exclusion_payload(target: Exclusion) -> dict[str, Any]:
     return {"subgroup": target.subgroup, "stream": target.stream}
 
@@ -342,24 +350,19 @@ def frozen_from_dict(d: Any, where: str) -> FrozenLimits:
 
 
 def _typed_fields(cls: type, d: dict, where: str, what: str) -> dict[str, Any]:
-    known = {f.name: f for f in fields(cls)}
+    """Check stored values against the dataclass's annotations (``str | None``, ``float``, ``bool``)."""
+    known = {f.name: {t.strip() for t in str(f.type).split("|")} for f in fields(cls)}
     out: dict[str, Any] = {}
     for key, value in d.items():
-        f = known.get(key)
-        if f is None or key == "spec":
+        kinds = known.get(key)
+        if kinds is None or key == "spec":
             raise WorkbenchError(f"{where}: unknown {what} {key!r}")
-        default = f.default
-        if isinstance(default, bool):
-            good = isinstance(value, bool)
-        elif isinstance(default, str):
-            good = isinstance(value, str)
-        elif isinstance(default, float) or default is None:
-            good = _is_num(value) or (default is None and value is None)
-        else:
-            good = False
+        good = ((value is None and "None" in kinds) or (isinstance(value, bool) and "bool" in kinds)
+                or (isinstance(value, str) and "str" in kinds) or (_is_num(value) and "float" in kinds)
+                or (type(value) is int and "int" in kinds))
         if not good:
             raise WorkbenchError(f"{where}: {what} {key!r} has the wrong type ({type(value).__name__})")
-        out[key] = float(value) if _is_num(value) and not isinstance(default, bool) else value
+        out[key] = float(value) if _is_num(value) and "float" in kinds else value
     return out
 
 
@@ -461,10 +464,24 @@ def describe(ev: Event) -> str:
     return "case created"
 
 
+def describe_trail(events: Iterable[Event]) -> list[str]:
+    """:func:`describe` for each event, with the fields a setup change changed."""
+    out, current = [], None
+    for ev in events:
+        line = describe(ev)
+        if ev.kind in ("created", "settings"):
+            new = Settings.from_dict(ev.payload["settings"])
+            if current is not None:
+                line += ": " + ("; ".join(printable(c) for c in settings_changes(current, new)) or "no field changed")
+            current = new
+        out.append(line)
+    return out
+
+
 def settings_changes(old: Settings, new: Settings) -> list[str]:
-    """``name: old -> new`` for each setup field that differs (spec fields as ``spec.lsl``)."""
+    """``name: old → new`` for each setup field that differs (spec fields as ``spec.lsl``)."""
     a, b = _flat(old.as_dict()), _flat(new.as_dict())
-    return [f"{k}: {a.get(k)} -> {b.get(k)}" for k in sorted(set(a) | set(b)) if a.get(k) != b.get(k)]
+    return [f"{k}: {a.get(k)} → {b.get(k)}" for k in sorted(set(a) | set(b)) if a.get(k) != b.get(k)]
 
 
 def _flat(d: dict, prefix: str = "") -> dict[str, Any]:

@@ -113,7 +113,7 @@ def detect(table: Table, req: LayoutRequest) -> Layout:
     if key is None and req.time:
         key, by_name = req.time, True
     time = _find_time(req, key, cols, norm)
-    repeats = key is not None and bool(pd.Series(sniff.as_text(table, key)).duplicated().any())
+    repeats = key is not None and sniff.repeats(table, key, sniff.as_times(table, key) if key == time else None)
     count, size = req.count, req.size
     if count is None and req.kind in (None, "long", "individuals") and plain:
         c, s = first(_COUNT), first(_SIZE)
@@ -304,8 +304,8 @@ class _Builder:
         if key is None:
             return np.arange(1, len(self.t.frame) + 1).astype(str)
         labels = self.texts(key, "subgroup key")
-        dup = pd.Series(labels).duplicated().to_numpy()
-        if dup.any():
+        if sniff.repeats(self.t, key, sniff.as_times(self.t, key) if key == self.lay.time else None):
+            dup = pd.Series(labels).duplicated().to_numpy()
             i = int(np.argmax(dup))
             j = int(np.flatnonzero(labels == labels[i])[0])
             raise self.fail(i, key, f"duplicate subgroup {str(labels[i])!r} (also at row {int(self.t.lines[j])})")

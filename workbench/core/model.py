@@ -234,8 +234,9 @@ class Settings:
     """Chart kind (see CHART_KINDS) or ``auto`` (imr for individuals, xbar-r for n <= 10, else xbar-s)."""
     sigma: str = "auto"
     """Sigma estimator: auto | rbar | sbar | pooled | mrbar | known."""
-    rules: str = "western-electric"
-    """Rule set for the location chart: a set name or a comma list of rule ids."""
+    rules: str | None = None
+    """Rule set for the location chart: a set name or a comma list of rule ids; None: the default
+    for the chart kind (western-electric for variables charts, limits-only for count charts)."""
     spread_rules: str = "limits-only"
     """Rule set for the spread chart."""
     known_mean: float | None = None

@@ -58,7 +58,7 @@ class FitInfo:
     runner_up_aic: float | None
     """AIC of the runner-up."""
     candidates: tuple[Candidate, ...]
-    """Every model fitted, best first."""
+    """Every model fitted: the chosen one first, then the others by AIC."""
     skipped: tuple[str, ...]
     """Plain-words reasons why some models were not fitted."""
     shift: float
@@ -137,11 +137,43 @@ def _candidate(name: str, params: dict[str, float], x: np.ndarray) -> Candidate:
     return Candidate(name, tuple(params.items()), loglik, 2 * k - 2 * loglik, _ad_fitted(np.sort(x), dist))
 
 
+def weibull_mle(u: np.ndarray) -> tuple[float, float]:
+    """Maximum-likelihood Weibull shape c and scale (location 0) of positive readings.
+
+    Solves the profile equation sum(x^c log x)/sum(x^c) - 1/c - mean(log x) = 0 (increasing in c)
+    by Brent's method, then scale = mean(x^c)^(1/c); computed on log-centred data.
+
+    References
+    ----------
+    Cohen, A. C. (1965), "Maximum likelihood estimation in the Weibull distribution based on
+    complete and on censored samples", Technometrics 7(4).
+    """
+    lx = np.log(u)
+    lx = lx - lx.max()               # x^c / max^c in (0, 1]: no overflow
+    mlog = float(lx.mean())
+
+    def g(c: float) -> float:
+        w = np.exp(c * lx)
+        return float(np.dot(w, lx) / w.sum()) - 1.0 / c - mlog
+
+    lo, hi = 0.5, 2.0
+    while g(lo) > 0:
+        lo /= 4.0
+    while g(hi) < 0:
+        hi *= 4.0
+    c = optimize.brentq(g, lo, hi, xtol=1e-14, rtol=1e-13)
+    scale = float(np.exp(np.log(u).max() + math.log(float(np.mean(np.exp(c * lx)))) / c))
+    return float(c), scale
+
+
 def fit_boxcox(u: np.ndarray) -> Candidate:
     """Box-Cox model of positive readings ``u``: lambda by ML, then a normal on the transformed scale."""
     lam = boxcox_lambda(u)
-    y = boxcox(u, lam)
-    mean_t, sd_t = float(y.mean()), float(y.std(ddof=1))
+    with np.errstate(over="ignore", invalid="ignore"):
+        y = boxcox(u, lam)
+        mean_t, sd_t = float(y.mean()), float(y.std(ddof=1))
+    if not (math.isfinite(mean_t) and math.isfinite(sd_t) and sd_t > 0):
+        raise ValueError(f"the transform with \u03bb = {lam:.4g} overflows")
     loglik = boxcox_llf(lam, u) - 0.5 * u.size * (math.log(2 * math.pi) + 1.0)
     ad = _ad_fitted(np.sort(y), stats.norm(mean_t, sd_t))
     params = (("lambda", lam), ("mean", mean_t), ("sd", sd_t))
@@ -165,6 +197,11 @@ def fit_models(x: np.ndarray, shift: float | None, names: tuple[str, ...]) -> Fi
     """Fit the named models (any of CANDIDATES and "box-cox") and rank them by AIC.
 
     Positive-support models are skipped (with a reason) when a reading + shift is not above 0.
+
+    References
+    ----------
+    Akaike, H. (1974), "A new look at the statistical model identification", IEEE Transactions
+    on Automatic Control 19(6): AIC = 2k - 2 log L.
     """
     if x.size < MIN_FIT_READINGS:
         raise WorkbenchError(f"fitting a distribution needs at least {MIN_FIT_READINGS} readings, got {x.size}")
@@ -180,10 +217,12 @@ def fit_models(x: np.ndarray, shift: float | None, names: tuple[str, ...]) -> Fi
                 fitted.append(_candidate(name, {"mean": float(x.mean()), "sd": float(x.std())}, x))
             elif name == "box-cox":
                 fitted.append(fit_boxcox(u))
+            elif name == "weibull":
+                c, scale = weibull_mle(u)
+                fitted.append(_candidate(name, {"c": c, "scale": scale}, u))
             else:
-                scipy_dist = {"lognormal": stats.lognorm, "weibull": stats.weibull_min, "gamma": stats.gamma}[name]
-                shape, _, scale = scipy_dist.fit(u, floc=0.0)
-                key = {"lognormal": "s", "weibull": "c", "gamma": "a"}[name]
+                shape, _, scale = (stats.lognorm if name == "lognormal" else stats.gamma).fit(u, floc=0.0)
+                key = "s" if name == "lognormal" else "a"
                 fitted.append(_candidate(name, {key: float(shape), "scale": float(scale)}, u))
         except (ValueError, RuntimeError, FloatingPointError) as exc:
             skipped.append(f"{name}: the fit failed ({exc})")
@@ -198,7 +237,12 @@ def fit_models(x: np.ndarray, shift: float | None, names: tuple[str, ...]) -> Fi
 
 
 def model_percentiles(fit: FitInfo) -> tuple[float, float, float]:
-    """The 0.135 %, 50 % and 99.865 % points of a fitted distribution, on the original scale."""
+    """The 0.135 %, 50 % and 99.865 % points of a fitted distribution, on the original scale.
+
+    References
+    ----------
+    ISO 22514-2 percentile method (0.135 % = Phi(-3), 99.865 % = Phi(3)).
+    """
     q = frozen(fit.distribution, fit.params).ppf([TAIL, 0.5, 1.0 - TAIL])
     shift = 0.0 if fit.distribution == "normal" else fit.shift
     return float(q[0]) - shift, float(q[1]) - shift, float(q[2]) - shift

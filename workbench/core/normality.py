@@ -12,7 +12,7 @@ ALPHA = 0.05
 SHAPIRO_MAX_N = 5000
 """Largest sample scipy's Shapiro–Wilk p-value is stated for; above it a probability-plot
 correlation is reported instead."""
-AD_P_METHOD = ("D'Agostino & Stephens (1986) formulas for the adjusted statistic "
+AD_P_METHOD = ("D'Agostino & Stephens (1986) formulas for the adjusted value "
                "A*² = A²(1 + 0.75/n + 2.25/n²), mean and variance estimated")
 
 
@@ -25,7 +25,7 @@ class Normality:
     ad_statistic: float
     """Anderson–Darling A² against a normal with the sample mean and SD."""
     ad_adjusted: float
-    """The small-sample adjusted statistic A*² used for the p-value."""
+    """The small-sample adjusted A*² (A² times 1 + 0.75/n + 2.25/n²) used for the p-value."""
     ad_p: float
     """p-value of the Anderson–Darling test."""
     ad_p_method: str
@@ -65,7 +65,7 @@ def ad_statistic(x, axis: int = -1):
 
 
 def ad_pvalue(a2_adjusted):
-    """p-value of the normal Anderson–Darling test from the adjusted statistic A*².
+    """p-value of the normal Anderson–Darling test from the adjusted A*² value.
 
     References
     ----------
@@ -76,7 +76,9 @@ def ad_pvalue(a2_adjusted):
     0.2 <= A* < 0.34: p = 1 - exp(-8.318 + 42.796 A* - 59.938 A*²);
     A* < 0.2: p = 1 - exp(-13.436 + 101.14 A* - 223.73 A*²).
     """
-    a = np.asarray(a2_adjusted, dtype=float)
+    # the first formula's quadratic turns upward past its vertex 5.709/(2*0.0186) = 153.5, where
+    # p is already about 1e-190: hold A* there so that p keeps falling towards 0
+    a = np.minimum(np.asarray(a2_adjusted, dtype=float), 5.709 / (2 * 0.0186))
     with np.errstate(over="ignore"):
         p = np.select(
             [a >= 0.6, a >= 0.34, a >= 0.2],

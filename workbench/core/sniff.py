@@ -22,11 +22,16 @@ is converted cell by cell (vectorised) to find the offending cells.
 from __future__ import annotations
 
 import csv
+import dataclasses
 import hashlib
 import io
+import itertools
 import os
 import re
+import threading
+import warnings
 from dataclasses import dataclass, field
+from functools import cached_property
 from typing import Callable, Iterable
 
 import numpy as np
@@ -41,6 +46,8 @@ _BOM = b"\xef\xbb\xbf"
 _ZIP_MAGIC = b"PK\x03\x04"
 _COMMA_NUMBER = re.compile(r"^\s*[-+]?\d+,\d+\s*$")
 _DOT_NUMBER = re.compile(r"^\s*[-+]?\d*\.\d+\s*$")
+_LEADING_ZERO = re.compile(r"^\s*[-+]?0\d")
+_ISO_TIME = re.compile(r"^\d{4}-\d\d-\d\d([ T]\d\d:\d\d(:\d\d(\.\d+)?)?)?$")
 
 
 @dataclass(frozen=True, eq=False)
@@ -51,8 +58,6 @@ class Table:
     """The file, as given."""
     frame: pd.DataFrame
     """One column per header field; names stripped and unique."""
-    lines: np.ndarray
-    """File line (CSV) or sheet row (XLSX) of each frame row; the header is line 1."""
     rows: int
     """Data rows in the file (header and blank lines excluded)."""
     sha256: str
@@ -64,10 +69,27 @@ class Table:
     notices: tuple[str, ...]
     """Plain-words notices about the reading (encoding fallback, decimal comma)."""
     text_columns: frozenset[str]
-    """Columns read as text whatever they hold (keys and stream names)."""
+    """Columns classed as text whatever they hold (keys and stream names)."""
     decimal: str = "."
     """Decimal mark of the numbers."""
-    _kinds: dict[str, str] = field(default_factory=dict, repr=False)
+    _source: tuple = ()
+    """(raw, encoding, delimiter, fields, header line) to number the lines on demand; () for XLSX."""
+    _kept: np.ndarray | None = None
+    """Frame row -> parsed row, when all-empty rows were dropped."""
+    _cache: dict = field(default_factory=dict, repr=False)
+
+    @cached_property
+    def lines(self) -> np.ndarray:
+        """File line (CSV) or sheet row (XLSX) of each frame row; the header is line 1."""
+        n = self.rows
+        if self._source:
+            raw, encoding, delim, nfields, header = self._source
+            lines = _record_lines(self.path, raw, encoding, delim, nfields, header)
+            if len(lines) != n:
+                lines = np.arange(n, dtype=np.int64) + header + 1
+        else:
+            lines = np.arange(n, dtype=np.int64) + 2
+        return lines if self._kept is None else lines[self._kept]
 
     def where(self, i: int, column: str) -> str:
         """``file:row:column`` for frame row ``i``."""
@@ -75,7 +97,7 @@ class Table:
 
 
 def read_table(path: str | os.PathLike, text_columns: Callable[[list[str]], Iterable[str]] = lambda names: ()) -> Table:
-    """Read ``path`` into a :class:`Table`; ``text_columns(names)`` picks the columns kept as text."""
+    """Read ``path`` into a :class:`Table`; ``text_columns(names)`` picks the columns classed as text."""
     shown = os.fspath(path)
     if not os.path.exists(shown):
         raise WorkbenchError(f"no such file: {shown}")
@@ -86,50 +108,116 @@ def read_table(path: str | os.PathLike, text_columns: Callable[[list[str]], Iter
             raw = fh.read()
     except OSError as exc:
         raise WorkbenchError(f"cannot read {shown}: {exc.strerror or exc}") from None
-    digest = hashlib.sha256(raw).hexdigest()
-    if not raw.strip():
+    digest = _Digest(raw)
+    if not raw[:4096].strip() and not raw.strip():
         raise WorkbenchError(f"{shown} is empty")
     if raw.startswith(_ZIP_MAGIC) or shown.lower().endswith((".xlsx", ".xlsm")):
-        frame, lines, names = _read_xlsx(shown, raw)
+        frame, names = _read_xlsx(shown, raw)
         text = frozenset(text_columns(names)) & frozenset(names)
-        return _finish(shown, frame, lines, digest, len(raw), "xlsx", (), text, ".")
-    encoding, text, notices = _decode(shown, raw)
+        return _finish(Table(shown, frame, len(frame), digest.result(), len(raw), "xlsx", (), text))
+    encoding, text, notices = _decode(shown, raw)  # text: the first 256 KB or more
     delim = sniff_delimiter(text[:SNIFF_BYTES])
     decimal = _sniff_decimal(text[:SNIFF_BYTES], delim)
     if decimal == ",":
         notices = notices + ("numbers use a decimal comma",)
-    names, header_line = _header(shown, text, delim)
-    lines = _record_lines(shown, raw, text, delim, len(names), header_line)
-    forced = frozenset(text_columns(names)) & frozenset(names)
+    names, header = _header(shown, text, delim)
+    keep = _leading_zero_columns(text[:SNIFF_BYTES], delim, names, set(text_columns(names)))
+    source = (raw, encoding, delim, len(names), header)
     try:
-        frame = pd.read_csv(
-            io.BytesIO(raw), sep=delim, header=0, names=names, engine="c", encoding=encoding,
-            dtype={c: str for c in forced}, keep_default_na=False, na_values=[""], decimal=decimal,
-            skip_blank_lines=True, low_memory=False, quotechar='"', index_col=False,
-        )
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", pd.errors.ParserWarning)
+            warnings.simplefilter("ignore", pd.errors.DtypeWarning)
+            # A UTF-8 file is handed over by path so that pandas may parse a large one in
+            # parallel chunks; other encodings go through the bytes already read.
+            source_arg = shown if encoding != "cp1252" else io.BytesIO(raw)
+            frame = pd.read_csv(
+                source_arg, sep=delim, header=0, names=names, engine="c", encoding=encoding,
+                dtype={c: str for c in keep}, keep_default_na=False, na_values=[""], decimal=decimal,
+                skip_blank_lines=True, quotechar='"', index_col=False,
+            )
     except (ValueError, pd.errors.ParserError, UnicodeError) as exc:
+        if not isinstance(exc, UnicodeError):
+            _record_lines(shown, *source)  # a row with too many fields: name it
         reason = str(exc).strip().splitlines()[-1] if str(exc).strip() else type(exc).__name__
         raise WorkbenchError(f"{shown}: cannot read as {_delim_name(delim)}-separated text: {reason}") from None
-    if lines is None or len(lines) != len(frame):
-        lines = np.arange(len(frame), dtype=np.int64) + header_line + 1
-    return _finish(shown, frame, lines, digest, len(raw), encoding, notices, forced, decimal)
+    table = Table(shown, frame, len(frame), digest.result(), len(raw), encoding, notices,
+                  frozenset(text_columns(names)) & frozenset(names), decimal, source)
+    if len(frame) and (b'"' in raw or (b"\r" in raw and raw.count(b"\r") != raw.count(b"\r\n"))
+                       or np.count_nonzero(np.frombuffer(raw, np.uint8) == ord(delim)) != (len(frame) + 1) * (len(names) - 1)
+                       or _has_na(frame.iloc[:, -1])):
+        table.lines  # noqa: B018  (numbers the lines now: raises on a row with too many or too few fields)
+    return _finish(table)
 
 
-def _finish(path, frame, lines, digest, size, encoding, notices, forced, decimal) -> Table:
-    rows = len(frame)
-    if rows == 0:
-        raise WorkbenchError(f"{path} has a header but no data rows")
-    empty = frame.isna().all(axis=1).to_numpy()
+class _Digest(threading.Thread):
+    """SHA-256 of the bytes, computed beside the parsing for large files (hashlib releases the GIL)."""
+
+    def __init__(self, raw: bytes) -> None:
+        super().__init__(name="workbench-sha256", daemon=True)
+        self.raw, self.hex = raw, ""
+        if len(raw) > 1 << 20:
+            self.start()
+        else:
+            self.run()
+
+    def run(self) -> None:
+        self.hex = hashlib.sha256(self.raw).hexdigest()
+
+    def result(self) -> str:
+        if self.is_alive() or self.ident is not None:
+            self.join()
+        return self.hex
+
+
+def _finish(t: Table) -> Table:
+    frame = t.frame
+    if len(frame) == 0:
+        raise WorkbenchError(f"{t.path} has a header but no data rows")
     unnamed = [c for c in frame.columns if c.startswith("column ") and bool(frame[c].isna().all())]
-    if unnamed:
+    if unnamed and len(unnamed) < frame.shape[1]:
         frame = frame.drop(columns=unnamed)
-    if empty.any():
+    floats = [c for c in frame.columns if pd.api.types.is_float_dtype(frame[c])]
+    if floats and not np.isnan(frame[floats[0]].to_numpy()).any() or not _has_na(frame[frame.columns[0]]):
+        empty = None
+    else:
+        empty = frame.isna().all(axis=1).to_numpy()
         if empty.all():
-            raise WorkbenchError(f"{path} has a header but no data rows (every cell is empty)")
+            raise WorkbenchError(f"{t.path} has a header but no data rows (every cell is empty)")
+        if not empty.any():
+            empty = None
+    if empty is not None:
         frame = frame.loc[~empty].reset_index(drop=True)
-        lines = lines[~empty]
-    return Table(path, frame, np.asarray(lines, dtype=np.int64), rows, digest, size, encoding,
-                 tuple(notices), forced, decimal)
+    if frame is t.frame:
+        return t
+    kept = None if empty is None else np.flatnonzero(~empty)
+    new = dataclasses.replace(t, frame=frame, _kept=kept, _cache={})
+    if "lines" in t.__dict__:
+        new.__dict__["lines"] = t.lines if kept is None else t.lines[kept]
+    return new
+
+
+def _has_na(s: pd.Series) -> bool:
+    if pd.api.types.is_float_dtype(s):
+        return bool(np.isnan(s.to_numpy()).any())
+    if pd.api.types.is_integer_dtype(s) or pd.api.types.is_bool_dtype(s):
+        return False
+    return bool(s.isna().any())
+
+
+def _leading_zero_columns(sample: str, delim: str, names: list[str], candidates: set[str]) -> set[str]:
+    """Candidate key columns with a cell like ``007`` in the sample: read them as text."""
+    if not candidates:
+        return set()
+    pos = [i for i, n in enumerate(names) if n in candidates]
+    out: set[str] = set()
+    try:
+        for rec in itertools.islice(csv.reader(io.StringIO(sample, newline=""), delimiter=delim), 1, 200):
+            for i in pos:
+                if i < len(rec) and _LEADING_ZERO.match(rec[i]):
+                    out.add(names[i])
+    except csv.Error:
+        pass
+    return out
 
 
 def _decode(path: str, raw: bytes) -> tuple[str, str, tuple[str, ...]]:
@@ -137,6 +225,8 @@ def _decode(path: str, raw: bytes) -> tuple[str, str, tuple[str, ...]]:
     if nul >= 0:
         raise WorkbenchError(f"{path}: NUL byte at offset {nul} (line {_line_at(raw, nul)}); "
                              "not a text file (UTF-16 is not supported)")
+    if raw.isascii():
+        return "utf-8", raw[:SNIFF_BYTES * 4].decode("ascii"), ()
     if raw.startswith(_BOM):
         try:
             return "utf-8-sig", raw.decode("utf-8-sig"), ()
@@ -158,7 +248,7 @@ def _line_at(raw: bytes, offset: int) -> int:
     return raw.count(b"\n", 0, offset) + 1
 
 
-def _read_xlsx(path: str, raw: bytes) -> tuple[pd.DataFrame, np.ndarray, list[str]]:
+def _read_xlsx(path: str, raw: bytes) -> tuple[pd.DataFrame, list[str]]:
     try:
         frame = pd.read_excel(io.BytesIO(raw), sheet_name=0, header=0, engine="openpyxl")
     except Exception as exc:  # openpyxl and zipfile raise many kinds of error on a damaged workbook
@@ -167,7 +257,7 @@ def _read_xlsx(path: str, raw: bytes) -> tuple[pd.DataFrame, np.ndarray, list[st
         raise WorkbenchError(f"{path} is empty")
     names = _clean_names(path, ["" if str(c).startswith("Unnamed: ") else str(c) for c in frame.columns], 1)
     frame.columns = names
-    return frame, np.arange(len(frame), dtype=np.int64) + 2, names
+    return frame, names
 
 
 def sniff_delimiter(sample: str) -> str:
@@ -228,11 +318,11 @@ def _clean_names(path: str, raw_names: list[str], line: int) -> list[str]:
     return names
 
 
-def _record_lines(path: str, raw: bytes, text: str, delim: str, nfields: int, header_line: int) -> np.ndarray | None:
+def _record_lines(path: str, raw: bytes, encoding: str, delim: str, nfields: int, header_line: int) -> np.ndarray:
     """File line of every data record; raises on a ragged row.  Vectorised on the bytes
     when no field is quoted and lines end in LF or CRLF; else via the csv module."""
     if b'"' in raw or raw.count(b"\r") != raw.count(b"\r\n"):
-        return _record_lines_csv(path, text, delim, nfields, header_line)
+        return _record_lines_csv(path, raw.decode(encoding), delim, nfields, header_line)
     buf = np.frombuffer(raw, dtype=np.uint8)
     nl = np.flatnonzero(buf == 10)
     starts = np.concatenate(([0], nl + 1))
@@ -260,7 +350,7 @@ def _record_lines(path: str, raw: bytes, text: str, delim: str, nfields: int, he
     return line_no[data]
 
 
-def _record_lines_csv(path: str, text: str, delim: str, nfields: int, header_line: int) -> np.ndarray | None:
+def _record_lines_csv(path: str, text: str, delim: str, nfields: int, header_line: int) -> np.ndarray:
     reader = csv.reader(io.StringIO(text, newline=""), delimiter=delim)
     out: list[int] = []
     start = 1
@@ -284,77 +374,13 @@ class Numbers:
     """One column converted to float64."""
 
     values: np.ndarray
-    """float64 per row, NaN for empty (and for skipped bad) cells."""
+    """float64 per row, NaN for empty (and for bad) cells."""
     empty: np.ndarray
     """Boolean per row: the cell was empty or a missing-value marker."""
     bad: np.ndarray
     """Boolean per row: the cell held something that is not a finite number."""
     texts: np.ndarray | None = None
-    """The cells as text (only computed when there were bad cells)."""
-
-
-def as_text(table: Table, column: str) -> np.ndarray:
-    """The column as a numpy array of str ("" for empty), stripped; numbers without a
-    needless ``.0``; dates and times from a workbook in ISO form."""
-    s = table.frame[column]
-    if pd.api.types.is_datetime64_any_dtype(s):
-        return _format_times(s)
-    if pd.api.types.is_bool_dtype(s) or pd.api.types.is_integer_dtype(s):
-        return s.astype(str).to_numpy(dtype=str)
-    if pd.api.types.is_float_dtype(s):
-        v = s.to_numpy(dtype=np.float64)
-        fin = np.isfinite(v)
-        if np.all(v[fin] == np.round(v[fin])) and np.all(np.abs(v[fin]) < 2**53):
-            out = np.where(fin, v, 0).astype(np.int64).astype(str)
-        else:
-            out = s.astype(str).to_numpy(dtype=str)
-        return np.where(np.isnan(v), "", out)
-    return s.where(s.notna(), "").astype(str).str.strip().to_numpy(dtype=str)
-
-
-def _format_times(s: pd.Series) -> np.ndarray:
-    t = s.dropna()
-    if len(t) and bool((t.dt.second == 0).all() and (t.dt.microsecond == 0).all()):
-        fmt = "%Y-%m-%d" if bool((t.dt.hour == 0).all() and (t.dt.minute == 0).all()) else "%Y-%m-%d %H:%M"
-    else:
-        fmt = "%Y-%m-%d %H:%M:%S"
-    return s.dt.strftime(fmt).where(s.notna(), "").to_numpy(dtype=str)
-
-
-def as_numbers(table: Table, column: str) -> Numbers:
-    """Convert a column to float64; which cells are empty and which are not numbers."""
-    s = table.frame[column]
-    if pd.api.types.is_numeric_dtype(s) and not pd.api.types.is_bool_dtype(s):
-        v = s.to_numpy(dtype=np.float64, na_value=np.nan)
-        bad = np.isinf(v)
-        if bad.any():
-            v = np.where(bad, np.nan, v)
-            return Numbers(v, np.isnan(v) & ~bad, bad, s.astype(str).to_numpy(dtype=str))
-        return Numbers(v, np.isnan(v), bad)
-    txt = as_text(table, column)
-    ser = pd.Series(txt, dtype=object)
-    empty = (txt == "") | ser.str.lower().isin(MISSING_MARKERS).to_numpy()
-    cand = ser.str.replace(",", ".", regex=False) if table.decimal == "," else ser
-    num = pd.to_numeric(cand.where(~empty, "nan"), errors="coerce").to_numpy(dtype=np.float64)
-    bad = ~empty & ~np.isfinite(num)
-    v = np.where(empty | bad, np.nan, num)
-    return Numbers(v, empty, bad, txt if bad.any() else None)
-
-
-def column_kind(table: Table, column: str) -> str:
-    """``number`` when most non-empty cells are numbers, ``text``, or ``empty``;
-    columns read as text (keys, stream names) are always ``text``."""
-    kind = table._kinds.get(column)
-    if kind is None:
-        if column in table.text_columns or pd.api.types.is_datetime64_any_dtype(table.frame[column]):
-            kind = "text"
-        else:
-            nums = as_numbers(table, column)
-            filled = int((~nums.empty).sum())
-            good = int(np.isfinite(nums.values).sum())
-            kind = "empty" if filled == 0 else ("number" if 2 * good > filled else "text")
-        table._kinds[column] = kind
-    return kind
+    """The cells as text (only kept when there were bad cells)."""
 
 
 @dataclass(frozen=True, eq=False)
@@ -369,32 +395,183 @@ class Times:
     """Boolean per row: the cell was empty."""
 
 
-def as_times(table: Table, column: str) -> Times | None:
-    """Parse a column as timestamps (format inferred by pandas, then ISO 8601); None when
-    the column holds plain numbers."""
-    import warnings
+def _cached(fn):
+    def wrapper(table: Table, column: str):
+        key = (fn.__name__, column)
+        if key not in table._cache:
+            table._cache[key] = fn(table, column)
+        return table._cache[key]
+    wrapper.__doc__, wrapper.__name__ = fn.__doc__, fn.__name__
+    return wrapper
 
+
+@_cached
+def as_text(table: Table, column: str) -> np.ndarray:
+    """The column as a numpy array of str ("" for empty): stripped, numbers without a
+    needless ``.0``, workbook dates in ISO form."""
     s = table.frame[column]
     if pd.api.types.is_datetime64_any_dtype(s):
-        t = s
-    elif pd.api.types.is_numeric_dtype(s) or pd.api.types.is_bool_dtype(s):
-        return None
+        return _format_times(s)
+    if pd.api.types.is_bool_dtype(s):
+        return s.to_numpy().astype(str)
+    if pd.api.types.is_integer_dtype(s):
+        return int_text(s.to_numpy())
+    if pd.api.types.is_float_dtype(s):
+        v = s.to_numpy(dtype=np.float64)
+        fin = np.isfinite(v)
+        if np.all(v[fin] == np.round(v[fin])) and np.all(np.abs(v[fin]) < 2**53):
+            out = int_text(np.where(fin, v, 0).astype(np.int64))
+        else:
+            out = s.astype(str).to_numpy(dtype=str)
+        return np.where(np.isnan(v), "", out)
+    arr = s.to_numpy(dtype=object)
+    out = _str_array(arr)
+    nan = np.flatnonzero(out == "nan")  # a NaN cell, or the text "nan"
+    if nan.size:
+        out[nan] = ["nan" if isinstance(arr[i], str) else "" for i in nan.tolist()]
+    return _strip(out)
+
+
+def _strip(out: np.ndarray) -> np.ndarray:
+    """Strip blanks, skipping the work when no cell starts or ends with one."""
+    if out.size == 0 or out.dtype.itemsize == 0:
+        return out
+    chars = out.view(np.uint32).reshape(len(out), -1)
+    last = np.maximum(np.strings.str_len(out) - 1, 0)
+    edges = np.concatenate((chars[:, 0], chars[np.arange(len(out)), last]))
+    if ((edges == 32) | (edges == 9) | (edges == 160) | (edges == 13)).any():
+        return np.strings.strip(out)
+    return out
+
+
+_POW10 = 10 ** np.arange(19, dtype=np.int64)
+
+
+def int_text(a: np.ndarray) -> np.ndarray:
+    """Integers as a numpy str array, equal to ``a.astype(str)`` but built digit by digit
+    (several times faster for large arrays of non-negative integers)."""
+    a = np.asarray(a, dtype=np.int64)
+    if a.size < 1000 or a.min() < 0 or a.max() >= _POW10[18]:
+        return a.astype(str)
+    width = len(str(int(a.max())))
+    ndig = np.searchsorted(_POW10[1:width], a, side="right") + 1
+    order = None
+    if not bool((ndig[1:] >= ndig[:-1]).all()):
+        order = np.argsort(ndig, kind="stable")
+        a, ndig = a[order], ndig[order]
+    out = np.zeros((width, len(a)), np.uint32)  # code points, one row per character position
+    cuts = np.searchsorted(ndig, np.arange(1, width + 2))
+    for g in range(1, width + 1):
+        seg = a[cuts[g - 1]:cuts[g]]
+        for c in range(g if seg.size else 0):
+            out[c, cuts[g - 1]:cuts[g]] = (seg // _POW10[g - 1 - c]) % 10 + 48
+    res = np.ascontiguousarray(out.T).view(f"<U{width}").ravel()
+    if order is not None:
+        back = np.empty_like(res)
+        back[order] = res
+        res = back
+    return res
+
+
+def _str_array(arr: np.ndarray) -> np.ndarray:
+    """``arr.astype(str)`` for an object array, with the width guessed from the first
+    cells (numpy's own width scan is the slow part) and checked afterwards."""
+    if len(arr) < 1000:
+        return arr.astype(str)
+    width = max(len(str(x)) for x in arr[:1000].tolist()) + 1
+    out = arr.astype(f"U{width}")
+    if (np.strings.str_len(out) == width).any():  # possibly cut short
+        return arr.astype(str)
+    return out
+
+
+def _format_times(s: pd.Series) -> np.ndarray:
+    t = s.dropna()
+    if len(t) and bool((t.dt.second == 0).all() and (t.dt.microsecond == 0).all()):
+        fmt = "%Y-%m-%d" if bool((t.dt.hour == 0).all() and (t.dt.minute == 0).all()) else "%Y-%m-%d %H:%M"
     else:
-        txt = pd.Series(as_text(table, column), dtype=object)
-        filled = txt != ""
-        if filled.any() and bool(pd.to_numeric(txt[filled], errors="coerce").notna().all()):
+        fmt = "%Y-%m-%d %H:%M:%S"
+    return s.dt.strftime(fmt).where(s.notna(), "").to_numpy(dtype=str)
+
+
+@_cached
+def as_numbers(table: Table, column: str) -> Numbers:
+    """Convert a column to float64, telling empty cells from cells that are not numbers."""
+    s = table.frame[column]
+    if pd.api.types.is_numeric_dtype(s) and not pd.api.types.is_bool_dtype(s):
+        v = s.to_numpy(dtype=np.float64, na_value=np.nan)
+        bad = np.isinf(v)
+        if bad.any():
+            return Numbers(np.where(bad, np.nan, v), np.isnan(v), bad, s.astype(str).to_numpy(dtype=str))
+        return Numbers(v, np.isnan(v), bad)
+    txt = as_text(table, column)
+    ser = pd.Series(txt, dtype=object)
+    empty = (txt == "") | ser.str.lower().isin(MISSING_MARKERS).to_numpy()
+    if table.decimal == ",":
+        ser = ser.str.replace(",", ".", regex=False)
+    num = pd.to_numeric(ser.where(~empty, "nan"), errors="coerce").to_numpy(dtype=np.float64)
+    bad = ~empty & ~np.isfinite(num)
+    return Numbers(np.where(empty | bad, np.nan, num), empty, bad, txt if bad.any() else None)
+
+
+@_cached
+def column_kind(table: Table, column: str) -> str:
+    """``number`` when most non-empty cells are numbers, ``text``, or ``empty``;
+    columns classed as text (keys, stream names) are always ``text``."""
+    s = table.frame[column]
+    if column in table.text_columns or pd.api.types.is_datetime64_any_dtype(s) or pd.api.types.is_bool_dtype(s):
+        return "text"
+    nums = as_numbers(table, column)
+    filled = int((~nums.empty).sum())
+    good = int(np.isfinite(nums.values).sum())
+    return "empty" if filled == 0 else ("number" if 2 * good > filled else "text")
+
+
+@_cached
+def as_times(table: Table, column: str) -> Times | None:
+    """Parse a column as timestamps (format inferred by pandas, else ISO 8601); None when
+    the column holds plain numbers."""
+    s = table.frame[column]
+    if pd.api.types.is_numeric_dtype(s) or pd.api.types.is_bool_dtype(s):
+        return None
+    if not pd.api.types.is_datetime64_any_dtype(s):
+        if s.dtype == object:  # mixed cells from a workbook
+            s = pd.Series(as_text(table, column), dtype=object).replace("", np.nan)
+        head = s.iloc[:200].dropna().iloc[:100].str.strip()
+        if len(head) and bool(pd.to_numeric(head, errors="coerce").notna().all()):
             return None
+        iso = len(head) and all(_ISO_TIME.match(x) for x in head.tolist())
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
-            t = pd.to_datetime(txt.where(filled), errors="coerce")
-            if bool((t.isna() & filled).any()):
-                t2 = pd.to_datetime(txt.where(filled), errors="coerce", format="ISO8601")
-                if int(t2.isna().sum()) < int(t.isna().sum()):
-                    t = t2
-    if not pd.api.types.is_datetime64_any_dtype(t):
-        t = pd.to_datetime(t, errors="coerce", utc=True)
+            t = pd.to_datetime(s, errors="coerce", format="ISO8601" if iso else None)
+            if np.isnat(t.to_numpy()).any() and bool((t.isna() & s.notna()).any()):
+                s = pd.Series(as_text(table, column), dtype=object).replace("", np.nan)  # strip blanks
+                t = pd.to_datetime(s, errors="coerce")
+                t2 = pd.to_datetime(s, errors="coerce", format="ISO8601")
+                t = t2 if int(t2.isna().sum()) < int(t.isna().sum()) else t
+        if not pd.api.types.is_datetime64_any_dtype(t):  # mixed UTC offsets
+            t = pd.to_datetime(s, errors="coerce", utc=True)
+    else:
+        t = s
     if getattr(t.dt, "tz", None) is not None:
         t = t.dt.tz_convert("UTC").dt.tz_localize(None)
-    na = t.isna().to_numpy()
-    empty = (as_text(table, column) == "")
-    return Times(t.to_numpy(), na & ~empty, empty)
+    values = t.to_numpy()
+    nat = np.isnat(values)
+    empty = s.isna().to_numpy() if nat.any() else nat
+    return Times(values, nat & ~empty, empty)
+
+
+def repeats(table: Table, column: str, times: Times | None = None) -> bool:
+    """Whether some value of the column occurs twice (as text); ``times`` are the column
+    parsed as timestamps, when it is a time column (strictly increasing times cannot repeat)."""
+    key = ("repeats", column)
+    if key not in table._cache:
+        s = table.frame[column]
+        v = times.values if times is not None and not (times.failed.any() or times.empty.any()) else None
+        if v is None and pd.api.types.is_numeric_dtype(s) and not pd.api.types.is_bool_dtype(s):
+            v = s.to_numpy()
+        if v is not None and (len(v) < 2 or bool((v[1:] > v[:-1]).all())):
+            table._cache[key] = False
+        else:
+            table._cache[key] = not pd.Series(as_text(table, column)).is_unique
+    return table._cache[key]

@@ -1,0 +1,158 @@
+"""Write the demo data sets (invented; see README.md) and planted.json.
+
+    python demo_data/generate.py            # rewrites the files beside this script
+    python demo_data/generate.py --out DIR  # writes them to DIR instead
+
+Deterministic: every file comes from ``numpy.random.default_rng`` seeded with SEED and the
+file's own number, and values are written with fixed rounding, so a run reproduces the
+committed files byte for byte.
+"""
+from __future__ import annotations
+
+import argparse
+import json
+from datetime import date, datetime, timedelta
+from pathlib import Path
+
+import numpy as np
+
+SEED = 20260302
+
+# Line 3 filler: six heads, one fill per head every 15 minutes, three 12-hour shifts.
+FILL_START = datetime(2026, 3, 2, 6, 0)
+FILL_SUBGROUPS = 144
+FILL_TARGET = 500.0
+FILL_SD = 0.30  # within-head standard deviation, mL
+FILL_WANDER = 0.03  # level wander shared by all heads between subgroups, mL
+HEADS = ("H1", "H2", "H3", "H4", "H5", "H6")
+HEAD_OFFSET = (0.05, -0.10, 0.00, 0.05, 0.10, -0.05)
+OPERATORS = ("A. Reyes", "T. Brandt", "K. Osei")  # invented crews, one per shift
+DRIFT_FIRST, DRIFT_FULL, DRIFT_LAST, DRIFT_SIZE = 16, 27, 35, 1.5  # H4 nozzle change
+STEP_FIRST, STEP_LAST, STEP_SIZE = 104, 119, 0.6  # new concentrate lot, all heads
+MISKEY_AT, MISKEY_HEAD, MISKEY_INTENDED, MISKEY_RECORDED = 134, "H2", 500.6, 509.6
+
+PH_START, PH_DAYS, PH_MEAN, PH_SD = date(2026, 1, 5), 60, 7.20, 0.05
+PH_SHIFT_FIRST, PH_SHIFT_SIZE = 40, 0.25  # softener cartridge change
+
+CAP_SUBGROUPS, CAP_MEAN, CAP_SD = 100, 2.20, 0.06
+SPINDLES, SPINDLE_OFFSET = ("S1", "S2", "S3", "S4"), (0.01, -0.01, 0.00, 0.00)
+
+BATCHES, LINES = 30, ("L1", "L2", "L3")
+LINE_RATE = (0.008, 0.010, 0.012)
+REJECT_LINE, REJECT_FIRST, REJECT_LAST, REJECT_RATE = "L2", 17, 21, 0.035  # 0-based batch positions
+
+
+def _stamp(i: int) -> str:
+    return (FILL_START + timedelta(minutes=15 * i)).strftime("%Y-%m-%d %H:%M")
+
+
+def _batch(i: int) -> str:
+    return f"B{i + 1:03d}"
+
+
+def filler() -> tuple[list[str], np.ndarray, list[str]]:
+    """Subgroup labels, fills (subgroups x heads, mL, rounded to 0.1) and the operator."""
+    rng = np.random.default_rng([SEED, 1])
+    m, k = FILL_SUBGROUPS, len(HEADS)
+    level = FILL_TARGET + rng.normal(0.0, FILL_WANDER, size=(m, 1))
+    fills = level + np.asarray(HEAD_OFFSET) + rng.normal(0.0, FILL_SD, size=(m, k))
+    i = np.arange(m)
+    ramp = np.clip((i - DRIFT_FIRST + 1) / (DRIFT_FULL - DRIFT_FIRST + 1), 0.0, 1.0) * DRIFT_SIZE
+    fills[:, HEADS.index("H4")] += np.where(i <= DRIFT_LAST, ramp, 0.0)
+    fills[STEP_FIRST:STEP_LAST + 1, :] += STEP_SIZE
+    fills = np.round(fills, 1)
+    fills[MISKEY_AT, HEADS.index(MISKEY_HEAD)] = MISKEY_RECORDED
+    operators = [OPERATORS[min(j // 48, 2)] for j in range(m)]
+    return [_stamp(j) for j in range(m)], fills, operators
+
+
+def tank_ph() -> tuple[list[str], np.ndarray]:
+    rng = np.random.default_rng([SEED, 2])
+    ph = PH_MEAN + rng.normal(0.0, PH_SD, size=PH_DAYS)
+    ph[PH_SHIFT_FIRST:] += PH_SHIFT_SIZE
+    return [(PH_START + timedelta(days=d)).isoformat() for d in range(PH_DAYS)], np.round(ph, 2)
+
+
+def caps() -> np.ndarray:
+    rng = np.random.default_rng([SEED, 3])
+    torque = CAP_MEAN + np.asarray(SPINDLE_OFFSET) + rng.normal(0.0, CAP_SD, size=(CAP_SUBGROUPS, len(SPINDLES)))
+    return np.round(torque, 2)
+
+
+def rejects() -> tuple[np.ndarray, np.ndarray]:
+    """Inspected and rejected closures, batches x lines."""
+    rng = np.random.default_rng([SEED, 4])
+    inspected = rng.integers(80, 121, size=(BATCHES, len(LINES))) * 10
+    rate = np.tile(np.asarray(LINE_RATE), (BATCHES, 1))
+    rate[REJECT_FIRST:REJECT_LAST + 1, LINES.index(REJECT_LINE)] = REJECT_RATE
+    return inspected, rng.binomial(inspected, rate)
+
+
+def planted() -> list[dict]:
+    """The planted causes, for the README and the tests."""
+    return [
+        {"file": "filler_line3.csv", "also_in": ["filler_line3_long.csv"], "kind": "drift", "stream": "H4",
+         "first": _stamp(DRIFT_FIRST), "full": _stamp(DRIFT_FULL), "last": _stamp(DRIFT_LAST),
+         "magnitude": DRIFT_SIZE, "unit": "mL",
+         "cause": "nozzle change on head H4 at 09:50; the nozzle was re-seated at 14:55"},
+        {"file": "filler_line3.csv", "also_in": ["filler_line3_long.csv"], "kind": "step", "stream": None,
+         "first": _stamp(STEP_FIRST), "last": _stamp(STEP_LAST), "magnitude": STEP_SIZE, "unit": "mL",
+         "cause": "new lot of concentrate with a lower viscosity; the volume setting was corrected at 11:55"},
+        {"file": "filler_line3.csv", "also_in": ["filler_line3_long.csv"], "kind": "mis-keyed", "stream": MISKEY_HEAD,
+         "first": _stamp(MISKEY_AT), "last": _stamp(MISKEY_AT), "magnitude": round(MISKEY_RECORDED - MISKEY_INTENDED, 1),
+         "unit": "mL", "recorded": MISKEY_RECORDED, "intended": MISKEY_INTENDED,
+         "cause": "reading typed by hand with a digit slip (509.6 for 500.6)"},
+        {"file": "tank_ph.csv", "also_in": [], "kind": "step", "stream": "ph",
+         "first": (PH_START + timedelta(days=PH_SHIFT_FIRST)).isoformat(),
+         "last": (PH_START + timedelta(days=PH_DAYS - 1)).isoformat(), "magnitude": PH_SHIFT_SIZE, "unit": "pH",
+         "cause": "softener cartridge of the rinse-water supply changed the evening before"},
+        {"file": "closure_rejects.csv", "also_in": [], "kind": "rate", "stream": REJECT_LINE,
+         "first": _batch(REJECT_FIRST), "last": _batch(REJECT_LAST),
+         "magnitude": round(REJECT_RATE - LINE_RATE[LINES.index(REJECT_LINE)], 3), "unit": "fraction rejected",
+         "cause": "liner misfeed on the L2 capper after a die change"},
+    ]
+
+
+def _write(path: Path, header: str, rows: list[str]) -> Path:
+    with open(path, "w", encoding="utf-8", newline="\n") as fh:
+        fh.write(header + "\n")
+        fh.writelines(r + "\n" for r in rows)
+    return path
+
+
+def write_all(out: Path) -> list[Path]:
+    """Write every demo file into ``out``; returns the paths written."""
+    out.mkdir(parents=True, exist_ok=True)
+    stamps, fills, operators = filler()
+    written = [
+        _write(out / "filler_line3.csv", "time," + ",".join(HEADS),
+               [s + "," + ",".join(f"{v:.1f}" for v in row) for s, row in zip(stamps, fills)]),
+        _write(out / "filler_line3_long.csv", "time,head,fill_ml,operator",
+               [f"{s},{h},{v:.1f},{op}" for s, row, op in zip(stamps, fills, operators) for h, v in zip(HEADS, row)]),
+    ]
+    days, ph = tank_ph()
+    written.append(_write(out / "tank_ph.csv", "date,ph", [f"{d},{v:.2f}" for d, v in zip(days, ph)]))
+    torque = caps()
+    written.append(_write(out / "stable_caps.csv", "sample," + ",".join(SPINDLES),
+                          [f"{i + 1}," + ",".join(f"{v:.2f}" for v in row) for i, row in enumerate(torque)]))
+    inspected, rejected = rejects()
+    written.append(_write(out / "closure_rejects.csv", "batch,line,inspected,rejected",
+                          [f"{_batch(b)},{line},{inspected[b, j]},{rejected[b, j]}"
+                           for b in range(BATCHES) for j, line in enumerate(LINES)]))
+    path = out / "planted.json"
+    path.write_text(json.dumps(planted(), indent=2) + "\n", encoding="utf-8", newline="\n")
+    written.append(path)
+    return written
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(description="Write the workbench demo data sets.")
+    parser.add_argument("--out", type=Path, default=Path(__file__).resolve().parent)
+    args = parser.parse_args(argv)
+    for p in write_all(args.out):
+        print(p)
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

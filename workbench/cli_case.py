@@ -1,0 +1,200 @@
+"""Headless case commands: ``workbench case ...`` and ``workbench verify``.
+
+Each action opens the case, appends one event (written at once, atomically) and closes it.
+Messages about the case (data grown, lock taken over) go to stderr; the result to stdout.
+"""
+from __future__ import annotations
+
+import argparse
+import sys
+from typing import Any
+
+from .core.case import MARKS, Event, describe_trail, printable
+from .core.model import Exclusion, WorkbenchError
+from .core.report import fmt
+
+
+def _notices(case: Any) -> None:
+    for n in case.notices:
+        print(f"workbench: {printable(n)}", file=sys.stderr)
+
+
+def _open(args: argparse.Namespace, readonly: bool = False):
+    from .core.casefile import Case
+    case = Case.open(args.case, readonly=readonly, author=getattr(args, "author", None))
+    _notices(case)
+    if case.readonly and not readonly:
+        case.close()
+        raise WorkbenchError(f"cannot change {args.case}: {case.readonly_reason}")
+    return case
+
+
+def _limit_lines(ev: Event) -> list[str]:
+    before = (ev.limits_before or {}).get("charts") or {}
+    after = (ev.limits_after or {}).get("charts") or {}
+    out = []
+    for name in dict.fromkeys([*before, *after]):
+        a, b = before.get(name) or {}, after.get(name) or {}
+        parts = [f"{label} {fmt(a.get(k))} → {fmt(b.get(k))}" for k, label in
+                 (("center", "centre"), ("lcl", "LCL"), ("ucl", "UCL")) if a.get(k) != b.get(k)]
+        if parts:
+            out.append(f"  {name}: " + ", ".join(parts))
+    return out or (["  limits unchanged"] if ev.limits_after is not None else [])
+
+
+def _done(case: Any) -> int:
+    ev = case.events[-1]
+    print(f"{printable(str(case.path))}: event {ev.seq}: {describe_trail(case.events)[-1]}")
+    for line in _limit_lines(ev):
+        print(line)
+    return 0
+
+
+def cmd_new(args: argparse.Namespace) -> int:
+    from .cli import layout_request_from_args, settings_from_args
+    from .core.analysis import analyse, limits_snapshot
+    from .core.casefile import Case
+    from .core.data import load
+    from .demo import demo_settings_for
+    request = layout_request_from_args(args)
+    settings = settings_from_args(args, demo_settings_for(args.data))
+    dataset = load(args.data, request)
+    analysis = analyse(dataset, settings)
+    with Case.create_for(dataset, request, settings, args.author, args.output, limits_snapshot(analysis)) as case:
+        print(f"{printable(str(case.path))}: created for {printable(args.data)} — {dataset.m} subgroups, "
+              f"{analysis.chart} chart, {len(analysis.signals)} signal(s)")
+    return 0
+
+
+def cmd_exclude(args: argparse.Namespace) -> int:
+    with _open(args) as case:
+        ds = case.load_dataset()
+        case.record_exclusion(ds, Exclusion.parse(args.target, ds.streams), args.reason, args.cause, args.signal)
+        return _done(case)
+
+
+def cmd_restore(args: argparse.Namespace) -> int:
+    with _open(args) as case:
+        ds = case.load_dataset()
+        case.record_restore(ds, Exclusion.parse(args.target, ds.streams), args.reason)
+        return _done(case)
+
+
+def cmd_note(args: argparse.Namespace) -> int:
+    if len(args.words) > 2:
+        raise WorkbenchError("give the note as one argument (quote it): workbench case note CASE [TARGET] TEXT")
+    target, text = (None, args.words[0]) if len(args.words) == 1 else args.words
+    with _open(args) as case:
+        on = case.note_target(case.load_dataset(), target) if target else "case"
+        case.note(text, target, on)
+        return _done(case)
+
+
+def cmd_mark(args: argparse.Namespace) -> int:
+    with _open(args) as case:
+        if args.key not in case.state.signal_states:
+            keys = {s.key for s in case.analyse(case.load_dataset()).signals}
+            if args.key not in keys:
+                raise WorkbenchError(f"no signal {args.key!r} in this case (workbench report {args.case} lists them)")
+        case.mark_signal(args.key, args.state, args.note)
+        return _done(case)
+
+
+def cmd_set(args: argparse.Namespace) -> int:
+    from .cli import settings_from_args
+    with _open(args) as case:
+        case.record_settings(case.load_dataset(), settings_from_args(args, case.state.settings))
+        return _done(case)
+
+
+def cmd_freeze(args: argparse.Namespace) -> int:
+    with _open(args) as case:
+        case.record_freeze(case.load_dataset())
+        return _done(case)
+
+
+def cmd_unfreeze(args: argparse.Namespace) -> int:
+    with _open(args) as case:
+        case.record_unfreeze(case.load_dataset(), args.reason)
+        return _done(case)
+
+
+def cmd_causes(args: argparse.Namespace) -> int:
+    if not args.add and not args.remove:
+        from .core.casefile import Case
+        case = Case.open(args.case, readonly=True)
+        print(", ".join(printable(c) for c in case.state.causes))
+        return 0
+    with _open(args) as case:
+        for name in args.add or ():
+            case.add_cause(name)
+        for name in args.remove or ():
+            case.remove_cause(name)
+        print(f"{printable(str(case.path))}: causes now " + ", ".join(printable(c) for c in case.state.causes))
+    return 0
+
+
+def cmd_show(args: argparse.Namespace) -> int:
+    from .core.case_report import case_report_text
+    case = _open(args, readonly=True)
+    analysis = case.analyse(case.load_dataset()) if case.data_status.usable else None
+    sys.stdout.write(case_report_text(case, analysis))
+    return 0
+
+
+def cmd_verify(args: argparse.Namespace) -> int:
+    from .core.casefile import verify
+    result = verify(args.case, recompute=not args.no_recompute)
+    for line in result.lines():
+        print(printable(line))
+    return 0 if result.intact else 1
+
+
+def register(subparsers: Any) -> None:
+    """Add the ``case`` and ``verify`` sub-commands to the main parser's subparsers."""
+    from .cli import add_data_options, add_setup_options
+    case = subparsers.add_parser("case", help="create a case file and record actions in its trail")
+    sub = case.add_subparsers(dest="case_command", metavar="ACTION", required=True)
+
+    def action(name: str, func, helptext: str, with_case: bool = True) -> argparse.ArgumentParser:
+        p = sub.add_parser(name, help=helptext, description=helptext)
+        if with_case:
+            p.add_argument("case", metavar="CASE", help="the case file (*.case.json)")
+        p.add_argument("--author", help="who does this (default: $WORKBENCH_AUTHOR, else user@host)")
+        p.set_defaults(func=func)
+        return p
+
+    p = action("new", cmd_new, "create a case file for a data file", with_case=False)
+    p.add_argument("data", metavar="DATA", help="data file (CSV, TSV, XLSX)")
+    p.add_argument("-o", "--output", metavar="CASE", help="case file to write (default: casefiles/<data>.case.json)")
+    add_data_options(p)
+    add_setup_options(p)
+    for name, func, words in (("exclude", cmd_exclude, "leave a subgroup or one reading out of the limits"),
+                              ("restore", cmd_restore, "put an excluded subgroup or reading back")):
+        p = action(name, func, words)
+        p.add_argument("target", metavar="SUBGROUP[:STREAM]", help="subgroup label, or label:stream for one reading")
+        p.add_argument("--reason", required=True, help="why (required)")
+        if name == "exclude":
+            p.add_argument("--cause", metavar="CATEGORY", help="cause category from the case's list")
+            p.add_argument("--signal", metavar="KEY", help="the signal this exclusion answers")
+    p = action("note", cmd_note, "add a note on the case, a subgroup or a signal")
+    p.add_argument("words", nargs="+", metavar="[TARGET] TEXT", help="optional subgroup label or signal key, then the note")
+    p = action("mark", cmd_mark, "set a signal's state")
+    p.add_argument("key", metavar="SIGNAL-KEY", help="e.g. xbar/beyond-limits/17")
+    p.add_argument("state", choices=MARKS)
+    p.add_argument("--note", help="what was found")
+    p = action("set", cmd_set, "change the setup (chart, rules, specification)")
+    add_setup_options(p)
+    action("freeze", cmd_freeze, "freeze the current limits for new data (Phase II)")
+    p = action("unfreeze", cmd_unfreeze, "unfreeze the limits")
+    p.add_argument("--reason", required=True, help="why (required)")
+    p = action("causes", cmd_causes, "show or edit the case's list of cause categories")
+    p.add_argument("--add", action="append", metavar="NAME", help="add a category (repeatable)")
+    p.add_argument("--remove", action="append", metavar="NAME", help="remove a category (repeatable)")
+    action("show", cmd_show, "print the case's state and trail")
+
+    v = subparsers.add_parser("verify", help="check a case file's integrity (exit 0 only when intact)")
+    v.add_argument("case", metavar="CASE", help="the case file (*.case.json)")
+    v.add_argument("--no-recompute", action="store_true",
+                   help="check the hash chain and the data only, not the recorded limits")
+    v.set_defaults(func=cmd_verify)

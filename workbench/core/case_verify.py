@@ -1,0 +1,139 @@
+"""``workbench verify``: check a case file end to end without changing anything."""
+from __future__ import annotations
+
+import tempfile
+from dataclasses import dataclass
+from pathlib import Path
+
+from .case import CaseState, apply, limits_gaps, replay, snapshot_difference
+from .case_format import (
+    DataStatus, Document, canonical_json, chain_break, check_data, jsonable, parse, read_bytes, read_json, render,
+)
+from .model import Dataset, WorkbenchError
+
+
+@dataclass(frozen=True)
+class Verification:
+    """The result of checking a case file end to end."""
+
+    path: str
+    intact: bool
+    """True only when the chain is whole, the trail replays, the data are unchanged (or only appended to)
+    and the recorded limits agree with a recomputation."""
+    events: int
+    """Number of events in the trail."""
+    head_hash: str | None
+    """Hash of the last event (what a reviewer signs)."""
+    chain_break: tuple[int, str] | None
+    """(event number, reason) at the first break of the chain."""
+    data: DataStatus | None
+    """The data fingerprint check (None when the file could not be replayed)."""
+    problems: tuple[str, ...]
+    """Everything that makes the case not intact, first problem first."""
+    remarks: tuple[str, ...] = ()
+    """Things worth knowing that do not break integrity (appended data, limits not recomputed)."""
+
+    def lines(self) -> list[str]:
+        if self.intact:
+            head = f"{self.path}: intact — {self.events} events, head hash {self.head_hash}"
+        else:
+            head = f"{self.path}: NOT intact — {self.problems[0]}"
+        return [head] + [f"  also: {p}" for p in self.problems[1:]] + [f"  note: {r}" for r in self.remarks]
+
+
+def verify(path: str | Path, recompute: bool = True) -> Verification:
+    """Check a case file: hash chain, replay, data fingerprint and (``recompute``) the recorded limits.
+
+    Raises WorkbenchError only when the file cannot be read as a case file at all (missing,
+    not JSON, a newer format version).  Never writes anything.
+    """
+    path = Path(path)
+    raw = read_bytes(path)
+    top = read_json(raw, str(path))
+    broken = chain_break(top)
+    problems = [f"the chain breaks at event {broken[0]}: {broken[1]}"] if broken else []
+    try:
+        doc = parse(raw, str(path))
+    except WorkbenchError as exc:
+        return Verification(str(path), False, len(top["trail"]), None, broken, None, tuple(problems + [str(exc)]))
+    if not broken:
+        edited = _edited_text(raw, doc)
+        if edited:
+            problems.append(edited)
+    status = check_data(doc.data, path)
+    remarks: list[str] = []
+    if not status.usable:
+        problems.append(status.message)
+    elif status.status == "appended":
+        remarks.append(status.message)
+    if recompute and status.usable and not broken:
+        problems += _recompute_limits(doc, status)
+    else:
+        problems += limits_gaps(doc.events)
+        if recompute:
+            remarks.append("the recorded limits were only compared along the trail, not recomputed "
+                           "(the chain or the data do not allow it)")
+    return Verification(str(path), not problems, len(doc.events), doc.state.head_hash, broken, status,
+                        tuple(problems), tuple(remarks))
+
+
+def _edited_text(raw: bytes, doc: Document) -> str | None:
+    """Where the file's text differs from what workbench writes for the same values, or None.
+
+    The hashes cover values; this catches edits that keep the values (a number spelled
+    differently, reformatting), so that changing any character of a case file is noticed.
+    """
+    expected = render(doc.data_dict, doc.events)
+    if raw == expected:
+        return None
+    have, want = raw.split(b"\n"), expected.split(b"\n")
+    line = next((i for i, (a, b) in enumerate(zip(have, want)) if a != b), min(len(have), len(want)))
+    where = ("the data reference" if line == 3 else f"event {line - 4}" if 5 <= line < 5 + len(doc.events)
+             else "the file's framing")
+    return (f"{where} is not stored the way workbench writes it (line {line + 1}): its text was edited, "
+            "although its values still match their hashes")
+
+
+def _recompute_limits(doc: Document, status: DataStatus) -> list[str]:
+    from .analysis import analyse, limits_snapshot
+    from .data import load
+    datasets: dict[int, Dataset] = {}
+    snaps: dict[tuple, dict] = {}
+
+    def dataset_for(nbytes: int) -> Dataset:
+        if nbytes not in datasets:
+            if nbytes == status.size_bytes:
+                datasets[nbytes] = load(str(status.path), doc.data.request)
+            elif nbytes > (status.size_bytes or 0):
+                raise WorkbenchError(f"it was computed on {nbytes} bytes of data; the file now has {status.size_bytes}")
+            else:
+                with tempfile.TemporaryDirectory() as tmp, open(status.path, "rb") as src:
+                    prefix = Path(tmp) / status.path.name
+                    prefix.write_bytes(src.read(nbytes))
+                    datasets[nbytes] = load(str(prefix), doc.data.request)
+        return datasets[nbytes]
+
+    def snapshot(nbytes: int, st: CaseState) -> dict:
+        key = (nbytes, canonical_json(jsonable([st.settings.as_dict(), [e.key for e in st.exclusions],
+                                                st.frozen.as_dict() if st.frozen else None])))
+        if key not in snaps:
+            snaps[key] = jsonable(limits_snapshot(analyse(dataset_for(nbytes), st.settings, st.exclusions, st.frozen)))
+        return snaps[key]
+
+    problems: list[str] = []
+    state: CaseState | None = None
+    for ev in doc.events:
+        before, state = state, (replay((ev,)) if state is None else apply(state, ev))
+        nbytes = doc.data.size_bytes if ev.data_bytes is None else ev.data_bytes
+        for when, recorded, st in (("before", ev.limits_before, before), ("after", ev.limits_after, state)):
+            if recorded is None or st is None:
+                continue
+            try:
+                diff = snapshot_difference(recorded, snapshot(nbytes, st))
+            except WorkbenchError as exc:
+                problems.append(f"event {ev.seq}: its limits could not be recomputed: {exc}")
+                return problems
+            if diff:
+                problems.append(f"event {ev.seq}: the limits recorded {when} the action differ from a recomputation "
+                                f"({diff})")
+    return problems

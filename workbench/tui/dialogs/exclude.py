@@ -1,0 +1,93 @@
+"""The exclude dialog: reason (required), cause category, scope (subgroup or one reading)."""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from rich.text import Text
+from textual import on
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, Vertical
+from textual.screen import ModalScreen
+from textual.widgets import Button, Input, Label, RadioButton, RadioSet, Select, Static
+
+from workbench.core.model import Exclusion
+
+from ..view import safe
+
+
+@dataclass(frozen=True)
+class ExcludeChoice:
+    """What the user confirmed."""
+
+    target: Exclusion
+    reason: str
+    cause: str | None
+
+
+class ExcludeDialog(ModalScreen[ExcludeChoice | None]):
+    """Leave a subgroup, or one of its readings, out of the limits."""
+
+    BINDINGS = [Binding("escape", "cancel", "Cancel", id="dialog-cancel")]
+
+    def __init__(self, label: str, streams: tuple[str, ...], causes: tuple[str, ...],
+                 stream: str | None = None, signal_words: str | None = None,
+                 excluded_streams: frozenset[str] = frozenset()) -> None:
+        super().__init__(classes="dialog-screen")
+        self.label, self.streams, self.causes = label, streams, causes
+        self.stream, self.signal_words = stream, signal_words
+        self.choosable = tuple(s for s in streams if s not in excluded_streams)
+
+    def compose(self) -> ComposeResult:
+        with Vertical(classes="dialog"):
+            yield Static(Text(f"Exclude from the limits — subgroup {safe(self.label)}", style="bold"),
+                         classes="dialog-title")
+            if self.signal_words:
+                yield Static(Text(f"Answers the signal: {self.signal_words}"), classes="dialog-prompt")
+            yield Static("Reason (required): why is this point not part of the process?", markup=False)
+            yield Input(placeholder="e.g. nozzle 4 blocked, fixed at 10:40", id="reason")
+            yield Static("Cause category", markup=False)
+            yield Select([(Text(safe(c)), c) for c in self.causes], prompt="(none)", id="cause")
+            if self.choosable and len(self.streams) > 1:
+                with RadioSet(id="scope"):
+                    yield RadioButton("the whole subgroup", value=self.stream is None, id="scope-subgroup")
+                    yield RadioButton("one reading (stream below)", value=self.stream is not None,
+                                      id="scope-reading")
+                start = self.stream if self.stream in self.choosable else self.choosable[0]
+                yield Select([(Text(safe(s)), s) for s in self.choosable], value=start, allow_blank=False,
+                             id="stream", disabled=self.stream is None)
+            yield Label("", id="error", classes="dialog-error", markup=False)
+            with Horizontal(classes="dialog-buttons"):
+                yield Button("Exclude", variant="warning", id="confirm")
+                yield Button("Cancel", id="cancel")
+
+    def on_mount(self) -> None:
+        self.query_one("#reason", Input).focus()
+
+    @on(RadioSet.Changed, "#scope")
+    def scope_changed(self, event: RadioSet.Changed) -> None:
+        self.query_one("#stream", Select).disabled = event.pressed.id != "scope-reading"
+
+    def _stream(self) -> str | None:
+        if not self.query("#scope"):
+            return None
+        if not self.query_one("#scope-reading", RadioButton).value:
+            return None
+        value = self.query_one("#stream", Select).value
+        return value if isinstance(value, str) else None
+
+    @on(Input.Submitted)
+    @on(Button.Pressed, "#confirm")
+    def submit(self) -> None:
+        reason = self.query_one("#reason", Input).value.strip()
+        if not reason:
+            self.query_one("#error", Label).update("A reason is required: say why this point is left out.")
+            self.query_one("#reason", Input).focus()
+            return
+        cause = self.query_one("#cause", Select).value
+        self.dismiss(ExcludeChoice(Exclusion(self.label, self._stream()), reason,
+                                   cause if isinstance(cause, str) else None))
+
+    @on(Button.Pressed, "#cancel")
+    def action_cancel(self) -> None:
+        self.dismiss(None)

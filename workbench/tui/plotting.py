@@ -1,0 +1,177 @@
+"""Drawing one control chart window with plotext (runs in a worker thread, returns rich Text).
+
+Each build uses a fresh ``textual_plotext`` figure, so builds never share state; the result
+carries the canvas geometry so the widget can draw the cursor column without rebuilding.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+from rich.text import Text
+from textual_plotext.plot import Plot
+
+from .view import EXCLUDED, NORMAL, OPEN, REVIEWED, safe
+from .window import Trace, Window, column_of, first_position, limit_trace, trace
+
+# The project's own glyphs and colours (RGB, so terminal themes do not remap them).
+GLYPH = {NORMAL: "•", OPEN: "▲", REVIEWED: "◆", EXCLUDED: "○"}
+COLOUR = {NORMAL: (205, 210, 220), OPEN: (255, 85, 60), REVIEWED: (70, 170, 255), EXCLUDED: (150, 150, 150)}
+LINE = (110, 135, 165)
+LIMIT = (235, 170, 50)
+CENTRE = (95, 200, 130)
+PHASE = (190, 120, 255)
+LEGEND = (("open signal", OPEN), ("explained / no cause", REVIEWED), ("excluded", EXCLUDED))
+
+
+@dataclass(frozen=True, eq=False)
+class ChartData:
+    """The series of one chart (arrays shared with the analysis, never copied)."""
+
+    name: str
+    title: str
+    values: np.ndarray
+    center: np.ndarray
+    lcl: np.ndarray
+    ucl: np.ndarray
+    codes: np.ndarray
+
+
+@dataclass(frozen=True, eq=False)
+class Picture:
+    """A built chart: the text and where its canvas lies in it."""
+
+    text: Text
+    lines: tuple[int, ...]
+    """Offset of each line in ``text`` (for the cursor overlay)."""
+    left: int
+    """Column of the first canvas cell."""
+    cols: int
+    top: int
+    """Line of the first canvas row."""
+    rows: int
+    window: Window
+    width: int
+    height: int
+    token: int
+
+
+def short(v: float) -> str:
+    """A limit value for an axis label (about five significant figures)."""
+    if v is None or not np.isfinite(v):
+        return "—"
+    a = abs(v)
+    if a >= 1e5 or (a < 1e-3 and a != 0):
+        return f"{v:.3g}"
+    return f"{v:.5g}"
+
+
+def _limit_label(word: str, lim) -> str:
+    if lim is None:
+        return ""
+    if isinstance(lim, float):
+        return f"{word} {short(lim)}"
+    return f"{word}~{short(float(lim[1][-1]))}"
+
+
+def axis_labels(data: ChartData, win: Window, cols: int) -> list[tuple[float, str]]:
+    """(value, label) for the centre line and limits of one chart in one window."""
+    out = []
+    for word, arr, kind in (("UCL", data.ucl, "max"), ("CL", data.center, "first"), ("LCL", data.lcl, "min")):
+        lim = limit_trace(arr, win, cols, kind)
+        if lim is None:
+            continue
+        value = lim if isinstance(lim, float) else float(lim[1][-1])
+        out.append((value, _limit_label(word, lim)))
+    return out
+
+
+def label_width(charts: list[ChartData], win: Window, cols: int) -> int:
+    return max([len(t) for c in charts for _, t in axis_labels(c, win, cols)] + [6])
+
+
+def build(data: ChartData, win: Window, width: int, height: int, lwidth: int, labels: np.ndarray,
+          phase2: int | None, xticks: bool, token: int, caption: str = "") -> Picture:
+    """Draw ``data`` over ``win`` at ``width`` x ``height`` cells (labels padded to ``lwidth``)."""
+    width, height = max(int(width), lwidth + 12), max(int(height), 4)
+    cols = width - lwidth - 2
+    tr: Trace = trace(data.values, data.codes, win, cols)
+    plt = Plot()
+    plt.plotsize(width, height)
+    plt._set_size(width, height)
+    plt.theme("clear")
+    limits = {k: limit_trace(a, win, cols, kind) for k, a, kind in
+              (("ucl", data.ucl, "max"), ("center", data.center, "first"), ("lcl", data.lcl, "min"))}
+    ys = [tr.lo, tr.hi] + [v for lim in limits.values() if lim is not None
+                           for v in ([lim] if isinstance(lim, float) else [float(lim[1].min()), float(lim[1].max())])]
+    ys = [y for y in ys if np.isfinite(y)]
+    lo, hi = (min(ys), max(ys)) if ys else (0.0, 1.0)
+    span = hi - lo if hi > lo else max(abs(hi), 1.0) * 0.1
+    lo, hi = lo - 0.12 * span, hi + 0.12 * span
+    plt.xlim(0, cols - 1)
+    plt.ylim(lo, hi)
+    for key, colour in (("ucl", LIMIT), ("lcl", LIMIT), ("center", CENTRE)):
+        lim = limits[key]
+        if isinstance(lim, float):
+            plt.hline(lim, color=colour)
+        elif lim is not None:
+            plt.plot(lim[0].tolist(), lim[1].tolist(), marker="dot", color=colour)
+    if phase2 is not None and win.start < phase2 < win.stop:
+        plt.vline(column_of(phase2, win, cols), color=PHASE)
+    if tr.line_x.size:
+        plt.plot(tr.line_x.tolist(), tr.line_y.tolist(), marker="braille", color=LINE)
+    spaced = not tr.envelope and (win.size == 1 or (cols - 1) / max(win.size - 1, 1) >= 2)
+    for cls in (NORMAL, REVIEWED, EXCLUDED, OPEN):
+        if cls not in tr.glyphs or (cls == NORMAL and not spaced):
+            continue
+        gx, gy = tr.glyphs[cls]
+        plt.scatter(gx.tolist(), gy.tolist(), marker=GLYPH[cls], color=COLOUR[cls])
+    ticks = axis_labels(data, win, cols)
+    plt.yticks([v for v, _ in ticks] or [lo], [t.rjust(lwidth) for _, t in ticks] or [" " * lwidth])
+    if xticks:
+        n = max(2, min(8, cols // 16))
+        pos = [int(round(i * (cols - 1) / (n - 1))) for i in range(n)]
+        room = max(4, (cols // n) - 2)
+        names = [safe(labels[first_position(p, win, cols)])[:room] for p in pos]
+        if len(names[-1]) > 1:  # keep the last label inside the frame
+            pos[-1] = max(pos[-1] - len(names[-1]) + 1, pos[-2] + len(names[-2]) + 1 if n > 1 else 0)
+        plt.xticks(pos, names)
+    else:
+        plt.xticks([], [])
+    text = Text.from_ansi(plt.build(), no_wrap=True, end="")
+    return _picture(text, data, win, width, height, token, caption)
+
+
+def _picture(text: Text, data: ChartData, win: Window, width: int, height: int, token: int,
+             caption: str) -> Picture:
+    plain = text.plain.split("\n")
+    offsets, pos = [], 0
+    for line in plain:
+        offsets.append(pos)
+        pos += len(line) + 1
+    top = next((i for i, ln in enumerate(plain) if "┌" in ln), 0)
+    left = plain[top].find("┌") + 1 if plain else 0
+    right = plain[top].rfind("┐") if plain else width
+    bottom = next((i for i in range(len(plain) - 1, -1, -1) if "└" in plain[i]), len(plain) - 1)
+    title, avail = f" {data.title} ", right - left - 2
+    cap = f" {caption} " if caption else ""
+    if cap and avail - len(title) - len(cap) >= 2:
+        title = title + "─" * (avail - len(title) - len(cap)) + cap
+    if len(title) <= avail and plain:
+        start = offsets[top] + left + 1
+        styled = Text(title, style="bold")
+        text = text[:start] + styled + text[start + len(title):]
+    return Picture(text, tuple(offsets), left, max(right - left, 1), top + 1, max(bottom - top - 1, 1), win,
+                   width, height, token)
+
+
+def legend_text() -> Text:
+    """One line naming the glyphs (drawn under the charts)."""
+    t = Text(no_wrap=True, overflow="ellipsis")
+    for i, (words, cls) in enumerate(LEGEND):
+        if i:
+            t.append("   ")
+        t.append(GLYPH[cls] + " ", style=f"bold rgb{COLOUR[cls]}")
+        t.append(words)
+    t.append("   │ cursor", style="reverse")
+    return t

@@ -1,0 +1,334 @@
+"""The bench: location chart over spread chart, the signals list, the subgroup panel, the status bar.
+
+Moving the cursor costs O(streams + log signals): the charts only restyle their cursor column,
+and a new picture is built in a worker only when the window of subgroups changes.
+"""
+from __future__ import annotations
+
+from textual import on, work
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, Vertical
+from textual.screen import Screen
+from textual.widgets import Footer, Static
+from textual.worker import get_current_worker
+
+from ..messages import ChartsReady
+from ..plotting import ChartData, build, label_width, legend_text
+from ..session import Snapshot
+from ..widgets.control_chart import ControlChart
+from ..widgets.panels import SubgroupPanel, status_text
+from ..widgets.signal_list import SignalList
+from ..window import Window, follow, window_at
+
+WRITES = {"exclude", "restore", "note", "explain", "no_cause", "reopen", "freeze", "setup"}
+MIN_WINDOW = 8
+
+
+class BenchScreen(Screen):
+    """The main screen of a case."""
+
+    BINDINGS = [
+        Binding("right,l", "move(1)", "Next subgroup", id="cursor-right", show=False),
+        Binding("left,h", "move(-1)", "Previous subgroup", id="cursor-left", show=False),
+        Binding("home", "first", "First subgroup", id="cursor-first", show=False),
+        Binding("end", "last", "Last subgroup", id="cursor-last", show=False),
+        Binding("n", "next_signal", "Next signal", id="next-signal"),
+        Binding("N", "prev_signal", "Prev signal", id="prev-signal"),
+        Binding("down,j", "step_signal(1)", "Next signal in list", id="list-down", show=False),
+        Binding("up,k", "step_signal(-1)", "Previous signal in list", id="list-up", show=False),
+        Binding("plus,equals_sign", "zoom(0.5)", "Zoom in", id="zoom-in", show=False),
+        Binding("minus", "zoom(2)", "Zoom out", id="zoom-out", show=False),
+        Binding("0", "whole", "Whole series", id="zoom-whole", show=False),
+        Binding("greater_than_sign,pagedown", "pan(1)", "Pan right", id="pan-right", show=False),
+        Binding("less_than_sign,pageup", "pan(-1)", "Pan left", id="pan-left", show=False),
+        Binding("enter,b", "breakdown", "Breakdown", id="breakdown"),
+        Binding("x", "exclude", "Exclude", id="exclude"),
+        Binding("r", "restore", "Restore", id="restore"),
+        Binding("e", "explain", "Explained", id="explain"),
+        Binding("c", "no_cause", "No cause", id="no-cause"),
+        Binding("o", "reopen", "Reopen signal", id="reopen", show=False),
+        Binding("a", "note", "Note", id="note"),
+        Binding("L", "freeze", "Freeze/unfreeze limits", id="freeze", show=False),
+        Binding("s", "setup", "Setup", id="setup"),
+        Binding("f", "fit", "Fit", id="fit"),
+        Binding("t", "trail", "Trail", id="trail"),
+        Binding("v", "panels", "Hide/show panels", id="panels", show=False),
+        Binding("escape", "back", "Back", id="back", show=False),
+    ]
+
+    def __init__(self) -> None:
+        super().__init__(id="bench")
+        self.snap: Snapshot | None = None
+        self.cursor = 0
+        self.window: Window | None = None
+        self.token = 0
+        self._enabled: tuple = ()
+
+    def compose(self) -> ComposeResult:
+        with Horizontal(id="bench-body"):
+            with Vertical(id="charts"):
+                yield ControlChart(id="location")
+                yield ControlChart(id="spread")
+                yield Static(legend_text(), id="legend")
+            with Vertical(id="side"):
+                yield SignalList(id="signals")
+                yield SubgroupPanel(id="subgroup")
+        yield Static(id="status", markup=False)
+        yield Footer()
+
+    def on_mount(self) -> None:
+        self.query_one("#signals").border_title = "signals"
+        self.query_one("#subgroup").border_title = "subgroup"
+        if self.app.snapshot is not None:
+            self.show_snapshot(self.app.snapshot)
+
+    # -- state from the app -------------------------------------------------------------------
+
+    def show_snapshot(self, snap: Snapshot) -> None:
+        self.snap = snap
+        m = snap.dataset.m
+        self.cursor = max(0, min(self.cursor, m - 1))
+        if self.window is None or self.window.stop > m:
+            self.window = window_at(self.cursor, self._default_size(), m)
+        spread = self.query_one("#spread", ControlChart)
+        spread.display = snap.analysis.spread is not None
+        mk = snap.marks
+        self.query_one(SignalList).set_rows(mk.rows)
+        self.query_one("#signals").border_title = f"signals — {mk.open_count} open of {mk.current}"
+        self._update_cursor_views()
+        self.request_charts()
+
+    def _default_size(self) -> int:
+        width = self.query_one("#location").size.width or self.app.size.width
+        return max(MIN_WINDOW, width - 14)
+
+    # -- charts -----------------------------------------------------------------------------
+
+    def request_charts(self) -> None:
+        snap, win = self.snap, self.window
+        if snap is None or win is None:
+            return
+        widgets = [self.query_one("#location", ControlChart), self.query_one("#spread", ControlChart)]
+        sizes = [(w.size.width, w.size.height) for w in widgets]
+        if sizes[0][0] <= 0 or sizes[0][1] <= 0:
+            return
+        self.token += 1
+        self._build(self.token, snap, win, sizes)
+
+    @work(thread=True, exclusive=True, group="charts")
+    def _build(self, token: int, snap: Snapshot, win: Window, sizes: list[tuple[int, int]]) -> None:
+        a = snap.analysis
+        charts = [ChartData(f"{c.name}", f"{c.name} · {c.title}", c.values, c.center, c.lcl, c.ucl,
+                            snap.marks.codes[c.name]) for c in a.charts[:2]]
+        cols = max(sizes[0][0] - 14, 10)
+        lw = label_width(charts, win, cols)
+        m = snap.dataset.m
+        caption = f"subgroups {win.start + 1:,}–{win.stop:,} of {m:,}"
+        if win.size > sizes[0][0] - lw - 2:
+            caption += " · min/max per column"
+        if a.phase2_start is not None:
+            caption += f" · Phase II from {a.phase2_start + 1:,}"
+        worker = get_current_worker()
+        pics = []
+        for i, (data, (w, h)) in enumerate(zip(charts, sizes)):
+            if worker.is_cancelled:
+                return
+            last = i == len(charts) - 1
+            pics.append(build(data, win, w, h, lw, snap.dataset.labels, a.phase2_start, xticks=last,
+                              token=token, caption=caption if i == 0 else ""))
+        self.post_message(ChartsReady(token, tuple(pics)))
+
+    @on(ChartsReady)
+    def charts_ready(self, msg: ChartsReady) -> None:
+        if msg.token != self.token or self.snap is None:
+            return
+        widgets = [self.query_one("#location", ControlChart), self.query_one("#spread", ControlChart)]
+        for w, pic, data in zip(widgets, msg.pictures, self.snap.analysis.charts):
+            w.show(pic, self.snap.marks.codes[data.name])
+            w.set_cursor(self.cursor)
+
+    def on_resize(self) -> None:
+        narrow, short = self.size.width < 100, self.size.height < 30
+        self.set_class(narrow, "narrow")
+        self.set_class(short, "short")
+        self.call_after_refresh(self.request_charts)
+
+    # -- the cursor ---------------------------------------------------------------------------
+
+    def move_to(self, position: int) -> None:
+        snap = self.snap
+        if snap is None:
+            return
+        m = snap.dataset.m
+        self.cursor = max(0, min(int(position), m - 1))
+        win = follow(self.window, self.cursor, m) if self.window else window_at(self.cursor, self._default_size(), m)
+        if win != self.window:
+            self.window = win
+            self.request_charts()
+        self._update_cursor_views()
+
+    def _update_cursor_views(self) -> None:
+        snap, p = self.snap, self.cursor
+        if snap is None:
+            return
+        for w in self.query(ControlChart):
+            w.set_cursor(p)
+        row = snap.marks.row_at(p)
+        self.query_one(SignalList).select(row)
+        self.query_one(SubgroupPanel).show(snap, p)
+        self.update_status()
+        enabled = tuple(self.check_action(a, ()) for a in sorted(WRITES | {"next_signal", "prev_signal"}))
+        if enabled != self._enabled:
+            self._enabled = enabled
+            self.refresh_bindings()
+
+    def update_status(self, busy: str = "") -> None:
+        if self.snap is not None:
+            self.query_one("#status", Static).update(status_text(self.snap, self.cursor, self.app.busy, busy))
+
+    @on(ControlChart.Clicked)
+    def chart_clicked(self, msg: ControlChart.Clicked) -> None:
+        self.move_to(msg.position)
+
+    @on(SignalList.Picked)
+    def signal_picked(self, msg: SignalList.Picked) -> None:
+        row = self.snap.marks.rows[msg.index] if self.snap else None
+        if row is not None and row.anchor >= 0:
+            self.move_to(row.anchor)
+
+    # -- actions ----------------------------------------------------------------------------
+
+    def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        snap = self.snap
+        if snap is None:
+            return None if action not in ("back", "panels") else True
+        if action in WRITES and (snap.readonly or self.app.busy):
+            return None
+        p, mk, a = self.cursor, snap.marks, snap.analysis
+        if action == "exclude":
+            return None if a.excluded_subgroups[p] else True
+        if action == "restore":
+            cells = a.excluded_cells
+            return True if a.excluded_subgroups[p] or (cells is not None and cells[p].any()) else None
+        if action in ("explain", "no_cause", "reopen"):
+            row = mk.row_at(p)
+            if row is None:
+                return None
+            state = mk.rows[row].state
+            wanted = {"explain": "explained", "no_cause": "no-cause-found", "reopen": "open"}[action]
+            return None if state == wanted or state == "excluded" else True
+        if action == "freeze":
+            return True if a.chart in ("xbar-r", "xbar-s", "imr", "ewma", "cusum") else None
+        if action == "next_signal":
+            return True if mk.next_open(p, 1) is not None else None
+        if action == "prev_signal":
+            return True if mk.next_open(p, -1) is not None else None
+        return True
+
+    def action_move(self, step: int) -> None:
+        self.move_to(self.cursor + step)
+
+    def action_first(self) -> None:
+        self.move_to(0)
+
+    def action_last(self) -> None:
+        if self.snap:
+            self.move_to(self.snap.dataset.m - 1)
+
+    def _go_row(self, row: int | None, none_words: str) -> None:
+        if row is None:
+            self.notify(none_words, timeout=3)
+            return
+        self.move_to(self.snap.marks.rows[row].anchor)
+
+    def action_next_signal(self) -> None:
+        if self.snap:
+            self._go_row(self.snap.marks.next_open(self.cursor, 1), "No open signal after this subgroup.")
+
+    def action_prev_signal(self) -> None:
+        if self.snap:
+            self._go_row(self.snap.marks.next_open(self.cursor, -1), "No open signal before this subgroup.")
+
+    def action_step_signal(self, step: int) -> None:
+        snap = self.snap
+        if snap is None or snap.marks.current == 0:
+            return
+        lst = self.query_one(SignalList)
+        if lst.selected is None:
+            import numpy as np
+            i = int(np.searchsorted(snap.marks.firsts, self.cursor, side="right"))
+            index = i if step > 0 else i - 1
+        else:
+            index = lst.selected + step
+        index = max(0, min(index, snap.marks.current - 1))
+        self.move_to(snap.marks.rows[index].anchor)
+
+    def action_zoom(self, factor: float) -> None:
+        if self.snap is None or self.window is None:
+            return
+        m = self.snap.dataset.m
+        size = max(MIN_WINDOW, min(m, int(round(self.window.size * factor))))
+        self.window = window_at(self.cursor - size // 2, size, m)
+        self.request_charts()
+
+    def action_whole(self) -> None:
+        if self.snap is not None:
+            self.window = Window(0, self.snap.dataset.m)
+            self.request_charts()
+
+    def action_pan(self, direction: int) -> None:
+        if self.snap is None or self.window is None:
+            return
+        m, win = self.snap.dataset.m, self.window
+        self.window = window_at(win.start + direction * max(1, win.size // 2), win.size, m)
+        self.cursor = max(self.window.start, min(self.cursor, self.window.stop - 1))
+        self.request_charts()
+        self._update_cursor_views()
+
+    def action_breakdown(self) -> None:
+        from .breakdown import BreakdownScreen
+        self.app.push_screen(BreakdownScreen(self.cursor))
+
+    def action_exclude(self) -> None:
+        self.app.exclude_flow(self.cursor)
+
+    def action_restore(self) -> None:
+        self.app.restore_flow(self.cursor)
+
+    def _signal_key(self) -> str | None:
+        row = self.snap.marks.row_at(self.cursor) if self.snap else None
+        return self.snap.marks.rows[row].key if row is not None else None
+
+    def action_explain(self) -> None:
+        self.app.mark_flow(self._signal_key(), "explained")
+
+    def action_no_cause(self) -> None:
+        self.app.mark_flow(self._signal_key(), "no-cause-found")
+
+    def action_reopen(self) -> None:
+        self.app.mark_flow(self._signal_key(), "open")
+
+    def action_note(self) -> None:
+        self.app.note_flow(str(self.snap.dataset.labels[self.cursor]))
+
+    def action_freeze(self) -> None:
+        self.app.freeze_flow()
+
+    def action_setup(self) -> None:
+        self.app.setup_flow()
+
+    def action_fit(self) -> None:
+        from .fit import FitScreen
+        self.app.push_screen(FitScreen())
+
+    def action_trail(self) -> None:
+        from .trail import TrailScreen
+        self.app.push_screen(TrailScreen())
+
+    def action_panels(self) -> None:
+        self.toggle_class("no-side")
+        self.call_after_refresh(self.request_charts)
+
+    def action_back(self) -> None:
+        self.notify("This is the bench, the first screen: press q to quit.", timeout=3)

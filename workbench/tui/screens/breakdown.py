@@ -1,0 +1,241 @@
+"""The breakdown of one subgroup: each stream against the subgroup and against its own history."""
+from __future__ import annotations
+
+import numpy as np
+from rich.text import Text
+from textual import on, work
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, VerticalScroll
+from textual.screen import Screen
+from textual.widgets import DataTable, Footer, Static
+from textual_plotext import PlotextPlot
+
+from workbench.core.model import Breakdown
+from workbench.core.report import fmt
+
+from ..messages import Computed
+from ..session import Snapshot
+from ..view import STATE_WORDS, safe
+from ..widgets.comparison import comparison_text
+from ..widgets.neighbourhood import NEIGHBOURS, neighbourhood_text
+
+WRITES = {"exclude", "exclude_reading", "restore"}
+COLUMNS = ("stream", "reading", "− mean", "stream mean", "stream SD", "z (own)", "role", "share of R", "excluded")
+
+
+class StreamPlot(PlotextPlot):
+    """The readings of every stream around the subgroup (a picture built in a worker)."""
+
+    def __init__(self, **kw) -> None:
+        super().__init__(**kw)
+        self.picture: Text | None = None
+
+    def render(self) -> Text:
+        return self.picture if self.picture is not None else Text("drawing…", style="dim")
+
+
+class BreakdownScreen(Screen):
+    """Per-stream view of the subgroup at ``position``."""
+
+    BINDINGS = [
+        Binding("escape", "back", "Back", id="breakdown-back"),
+        Binding("right,l", "move(1)", "Next subgroup", id="breakdown-next"),
+        Binding("left,h", "move(-1)", "Previous subgroup", id="breakdown-prev"),
+        Binding("n", "signal(1)", "Next signal", id="breakdown-next-signal"),
+        Binding("N", "signal(-1)", "Prev signal", id="breakdown-prev-signal"),
+        Binding("x", "exclude", "Exclude subgroup", id="breakdown-exclude"),
+        Binding("X", "exclude_reading", "Exclude reading", id="breakdown-exclude-reading"),
+        Binding("r", "restore", "Restore", id="breakdown-restore"),
+    ]
+
+    def __init__(self, position: int) -> None:
+        super().__init__(id="breakdown")
+        self.position = position
+        self.snap: Snapshot | None = None
+        self.result: Breakdown | None = None
+        self.token = 0
+
+    def compose(self) -> ComposeResult:
+        yield Static(id="bd-head", markup=False)
+        yield DataTable(id="bd-table", cursor_type="row", zebra_stripes=True)
+        yield Static(id="bd-verdict", markup=False)
+        with Horizontal(id="bd-lower"):
+            yield StreamPlot(id="bd-plot")
+            with VerticalScroll(id="bd-compare"):
+                yield Static("comparing the streams…", id="bd-compare-text", markup=False)
+        yield Footer()
+
+    def on_mount(self) -> None:
+        table = self.query_one(DataTable)
+        for c in COLUMNS:
+            table.add_column(c, key=c)
+        self.query_one("#bd-compare").border_title = "streams compared"
+        self.query_one("#bd-plot").border_title = f"readings ±{NEIGHBOURS} subgroups"
+        if self.app.snapshot is not None:
+            self.show_snapshot(self.app.snapshot)
+        table.focus()
+
+    def show_snapshot(self, snap: Snapshot) -> None:
+        self.snap = snap
+        self.position = max(0, min(self.position, snap.dataset.m - 1))
+        self.compute()
+        self.compare(snap)
+
+    # -- background work ------------------------------------------------------------------------
+
+    def compute(self) -> None:
+        if self.snap is None:
+            return
+        self.token += 1
+        self.query_one("#bd-head", Static).update(self._head())
+        self._breakdown(self.token, self.snap, self.position)
+
+    @work(thread=True, exclusive=True, group="breakdown")
+    def _breakdown(self, token: int, snap: Snapshot, p: int) -> None:
+        from workbench.core.streams import breakdown
+        try:
+            result = breakdown(snap.analysis, p)
+        except Exception as exc:  # shown, never raised into the UI
+            self.post_message(Computed("breakdown", token, None, str(exc)))
+            return
+        self.post_message(Computed("breakdown", token, result))
+
+    @work(thread=True, exclusive=True, group="compare")
+    def compare(self, snap: Snapshot) -> None:
+        self.post_message(Computed("comparison", 0, comparison_text(snap.analysis)))
+
+    def plot(self) -> None:
+        if self.snap is None:
+            return
+        w = self.query_one(StreamPlot)
+        row = self.query_one(DataTable).cursor_row
+        self._plot(self.token, self.snap, self.position, row, w.size.width, w.size.height)
+
+    @work(thread=True, exclusive=True, group="stream-plot")
+    def _plot(self, token: int, snap: Snapshot, p: int, row: int, width: int, height: int) -> None:
+        self.post_message(Computed("plot", token, neighbourhood_text(snap.dataset, p, row, width, height)))
+
+    @on(Computed)
+    def computed(self, msg: Computed) -> None:
+        if msg.what == "comparison":
+            self.query_one("#bd-compare-text", Static).update(msg.result)
+            return
+        if msg.token != self.token:
+            return
+        if msg.what == "plot":
+            plot = self.query_one(StreamPlot)
+            plot.picture = msg.result
+            plot.refresh()
+        elif msg.what == "breakdown":
+            self.result = msg.result
+            self._fill(msg.result, msg.error)
+            self.plot()
+
+    # -- filling the views ----------------------------------------------------------------------
+
+    def _head(self) -> Text:
+        snap, p = self.snap, self.position
+        t = Text()
+        t.append(f"Breakdown — subgroup {safe(snap.dataset.labels[p])}", style="bold")
+        t.append(f"  ({p + 1:,} of {snap.dataset.m:,})  ", style="dim")
+        for c in snap.analysis.charts:
+            t.append(f"{c.name} {fmt(c.values[p])}  ")
+        row = snap.marks.row_at(p)
+        if row is not None:
+            r = snap.marks.rows[row]
+            t.append(f"\nsignal: {r.chart} {r.rule} — {r.words} ({STATE_WORDS.get(r.state, r.state)})")
+        if snap.analysis.excluded_subgroups[p]:
+            info = snap.state.exclusion_info.get(str(snap.dataset.labels[p]))
+            t.append("\nexcluded from the limits" + (f": {safe(info.reason)}" if info else ""), style="italic")
+        return t
+
+    def _fill(self, bd: Breakdown | None, error: str | None) -> None:
+        table = self.query_one(DataTable)
+        keep = table.cursor_row
+        table.clear()
+        verdict = self.query_one("#bd-verdict", Static)
+        if bd is None:
+            verdict.update(Text(f"no breakdown: {error}", style="bold"))
+            return
+        for r in bd.rows:
+            z = fmt(r.z, 2)
+            share = f"{100 * r.range_share:.0f}%" if r.role else ""
+            name = Text(safe(r.stream), style="bold" if r.stream == bd.driver else "")
+            table.add_row(name, fmt(r.reading), fmt(r.deviation, 3), fmt(r.stream_mean), fmt(r.stream_sd, 3),
+                          Text(z, style="bold" if np.isfinite(r.z) and abs(r.z) >= 2 else ""), r.role, share,
+                          "yes" if r.excluded else "", key=r.stream)
+        if bd.rows:
+            table.move_cursor(row=min(max(keep, 0), len(bd.rows) - 1))
+        t = Text()
+        t.append("Verdict: ", style="bold")
+        t.append(safe(bd.verdict))
+        if bd.driver:
+            t.append(f"   (driver: {safe(bd.driver)})", style="dim")
+        verdict.update(t)
+
+    @on(DataTable.RowHighlighted)
+    def row_moved(self) -> None:
+        self.plot()
+        self.refresh_bindings()
+
+    def on_resize(self) -> None:
+        self.call_after_refresh(self.plot)
+
+    # -- actions ------------------------------------------------------------------------------
+
+    def _stream(self) -> str | None:
+        bd = self.result
+        row = self.query_one(DataTable).cursor_row
+        if bd is None or not bd.rows or not 0 <= row < len(bd.rows):
+            return None
+        return bd.rows[row].stream
+
+    def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        snap = self.snap
+        if snap is None:
+            return None if action != "back" else True
+        if action in WRITES and (snap.readonly or self.app.busy):
+            return None
+        a, p = snap.analysis, self.position
+        if action == "exclude":
+            return None if a.excluded_subgroups[p] else True
+        if action == "exclude_reading":
+            s = self._stream()
+            if s is None or a.excluded_subgroups[p] or snap.dataset.k < 2:
+                return None
+            return None if a.excluded_cells[p, snap.dataset.stream_index(s)] else True
+        if action == "restore":
+            cells = a.excluded_cells
+            return True if a.excluded_subgroups[p] or (cells is not None and cells[p].any()) else None
+        return True
+
+    def action_back(self) -> None:
+        bench = self.app.bench()
+        if bench is not None:
+            bench.move_to(self.position)
+        self.app.pop_screen()
+
+    def action_move(self, step: int) -> None:
+        if self.snap is not None:
+            self.position = max(0, min(self.position + step, self.snap.dataset.m - 1))
+            self.compute()
+
+    def action_signal(self, step: int) -> None:
+        if self.snap is None:
+            return
+        row = self.snap.marks.next_open(self.position, step)
+        if row is None:
+            self.notify("No open signal that way.", timeout=3)
+            return
+        self.position = self.snap.marks.rows[row].anchor
+        self.compute()
+
+    def action_exclude(self) -> None:
+        self.app.exclude_flow(self.position)
+
+    def action_exclude_reading(self) -> None:
+        self.app.exclude_flow(self.position, stream=self._stream())
+
+    def action_restore(self) -> None:
+        self.app.restore_flow(self.position, stream=self._stream())

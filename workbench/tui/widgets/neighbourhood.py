@@ -1,0 +1,54 @@
+"""A small plotext chart of every stream's readings around one subgroup (built in a worker)."""
+from __future__ import annotations
+
+import numpy as np
+from rich.text import Text
+from textual_plotext.plot import Plot
+
+from workbench.core.model import Dataset
+
+from ..plotting import PHASE, short
+from ..view import safe
+
+NEIGHBOURS = 10
+"""Subgroups drawn on each side of the selected one."""
+PALETTE = ((120, 120, 130), (105, 115, 140), (125, 110, 125), (110, 130, 120), (135, 125, 105))
+HIGHLIGHT = (255, 200, 60)
+
+
+def neighbourhood_text(ds: Dataset, p: int, row: int, width: int, height: int) -> Text:
+    """Readings of each stream over p ± NEIGHBOURS; the stream at ``row`` highlighted."""
+    if ds.values is None:
+        return Text("summary data: no readings per stream", style="dim")
+    width, height = max(width, 30), max(height, 6)
+    lo, hi = max(0, p - NEIGHBOURS), min(ds.m, p + NEIGHBOURS + 1)
+    x = list(range(lo, hi))
+    block = ds.values[lo:hi]
+    plt = Plot()
+    plt.plotsize(width, height)
+    plt._set_size(width, height)
+    plt.theme("clear")
+    order = [j for j in range(ds.k) if j != row] + ([row] if 0 <= row < ds.k else [])
+    for j in order:
+        col = block[:, j]
+        ok = np.isfinite(col)
+        if not ok.any():
+            continue
+        colour = HIGHLIGHT if j == row else PALETTE[j % len(PALETTE)]
+        plt.plot([x[i] for i in np.flatnonzero(ok)], col[ok].tolist(), marker="braille" if j != row else "•",
+                 color=colour)
+    plt.vline(p, color=PHASE)
+    finite = block[np.isfinite(block)]
+    if finite.size:
+        ticks = [float(finite.min()), float(finite.max())]
+        plt.yticks(ticks, [short(v) for v in ticks])
+    plt.xticks([lo, p, hi - 1] if hi - 1 > p > lo else [p], [safe(ds.labels[i])[:10] for i in
+                                                            ([lo, p, hi - 1] if hi - 1 > p > lo else [p])])
+    plt.xlim(lo - 0.5, hi - 0.5)
+    text = Text.from_ansi(plt.build(), no_wrap=True, end="")
+    if 0 <= row < ds.k:
+        note = Text(f" {safe(ds.streams[row])} highlighted ", style="bold")
+        first = text.plain.find("┌")
+        if first >= 0 and len(note) < width - first - 4:
+            text = text[:first + 2] + note + text[first + 2 + len(note):]
+    return text
