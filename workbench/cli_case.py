@@ -81,12 +81,9 @@ def cmd_restore(args: argparse.Namespace) -> int:
 
 
 def cmd_note(args: argparse.Namespace) -> int:
-    if len(args.words) > 2:
-        raise WorkbenchError("give the note as one argument (quote it): workbench case note CASE [TARGET] TEXT")
-    target, text = (None, args.words[0]) if len(args.words) == 1 else args.words
     with _open(args) as case:
-        on = case.note_target(case.load_dataset(), target) if target else "case"
-        case.note(text, target, on)
+        on = case.note_target(case.load_dataset(), args.target) if args.target else "case"
+        case.note(args.text, args.target, on)
         return _done(case)
 
 
@@ -178,7 +175,8 @@ def register(subparsers: Any) -> None:
             p.add_argument("--cause", metavar="CATEGORY", help="cause category from the case's list")
             p.add_argument("--signal", metavar="KEY", help="the signal this exclusion answers")
     p = action("note", cmd_note, "add a note on the case, a subgroup or a signal")
-    p.add_argument("words", nargs="+", metavar="[TARGET] TEXT", help="optional subgroup label or signal key, then the note")
+    p.add_argument("target", nargs="?", metavar="TARGET", help="a subgroup label (or LABEL:STREAM) or a signal key")
+    p.add_argument("text", metavar="TEXT", help="the note (quote it)")
     p = action("mark", cmd_mark, "set a signal's state")
     p.add_argument("key", metavar="SIGNAL-KEY", help="e.g. xbar/beyond-limits/17")
     p.add_argument("state", choices=MARKS)

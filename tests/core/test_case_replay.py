@@ -7,7 +7,8 @@ import pytest
 from hypothesis import given, settings as hsettings, strategies as st
 
 from workbench.core import case as C
-from workbench.core.casefile import canonical_json, event_hash, parse, render, seal, sha256
+from workbench.core.case_format import canonical_json, event_hash, parse, render, seal, sha256
+from workbench.core.case_verify import limits_gaps, snapshot_difference
 from workbench.core.model import Exclusion, FrozenLimits, Settings, WorkbenchError
 
 LABELS = [str(i) for i in range(1, 9)]
@@ -17,7 +18,8 @@ DATA = {"path": "d.csv", "sha256": "a" * 64, "rows": 8, "size_bytes": 100,
 
 
 def created(settings: Settings = Settings()) -> C.Event:
-    payload = {"settings": settings.as_dict(), "causes": list(C.DEFAULT_CAUSES), "data_ref": sha256(canonical_json(DATA))}
+    payload = {"settings": settings.as_dict(), "causes": list(C.DEFAULT_CAUSES),
+               "data_ref": sha256(canonical_json(DATA))}
     return seal({"seq": 1, "time": "2024-05-01T08:00:00.000Z", "author": "ana", "kind": "created",
                  "payload": payload}, None)
 
@@ -143,7 +145,8 @@ def build(ops) -> list[C.Event]:
             kind, payload = "restore", {"subgroup": label, "stream": stream, "reason": text}
         elif op == "toggle":
             kind, payload = "exclude", {"subgroup": label, "stream": stream, "reason": text,
-                                        "cause": state.causes[0] if state.causes else None, "signal": f"xbar/trend/{label}"}
+                                        "cause": state.causes[0] if state.causes else None,
+                                        "signal": f"xbar/trend/{label}"}
         elif op == "note":
             kind, payload = "note", {"on": "subgroup", "target": key, "text": text}
         elif op == "mark":
@@ -206,10 +209,10 @@ def test_snapshot_difference_uses_a_relative_tolerance():
                                                     "r": {"lcl": None}}}
     far = {"sigma": 2.0, "charts": {"xbar": {"center": 10.0, "lcl": 7.0, "ucl": 13.0 * (1 + 1e-6)},
                                     "r": {"lcl": None}}}
-    assert C.snapshot_difference(a, near) is None
-    assert "charts.xbar.ucl" in C.snapshot_difference(a, far)
-    assert "present in only one" in C.snapshot_difference(a, {"sigma": 2.0})
-    assert C.snapshot_difference({"v": {"min": 1.0, "max": 2.0}}, {"v": 1.5}) is not None
+    assert snapshot_difference(a, near) is None
+    assert "charts.xbar.ucl" in snapshot_difference(a, far)
+    assert "present in only one" in snapshot_difference(a, {"sigma": 2.0})
+    assert snapshot_difference({"v": {"min": 1.0, "max": 2.0}}, {"v": 1.5}) is not None
 
 
 def test_limits_gaps_finds_a_before_that_does_not_follow_the_previous_after():
@@ -218,9 +221,9 @@ def test_limits_gaps_finds_a_before_that_does_not_follow_the_previous_after():
     other = {"sigma": 1.1, "charts": {"i": {"center": 5.0, "lcl": 1.7, "ucl": 8.3}}}
     append(events, "exclude", {"subgroup": "1", "reason": "x"}, limits_before=snap, limits_after=other, data_bytes=1)
     append(events, "restore", {"subgroup": "1", "reason": "y"}, limits_before=other, limits_after=snap, data_bytes=1)
-    assert C.limits_gaps(events) == []
+    assert limits_gaps(events) == []
     append(events, "exclude", {"subgroup": "2", "reason": "x"}, limits_before=other, limits_after=other, data_bytes=1)
-    gaps = C.limits_gaps(events)
+    gaps = limits_gaps(events)
     assert len(gaps) == 1 and gaps[0].startswith("event 4")
 
 

@@ -149,7 +149,7 @@ def analyse(dataset: Dataset, settings: Settings = Settings(), exclusions: Itera
     Analysis
     """
     ds = dataset
-    excl = tuple(sorted(set(exclusions)))
+    excl = tuple(sorted(set(exclusions), key=lambda e: (e.subgroup, e.stream or "")))
     if ds.m == 0:
         raise WorkbenchError(f"{ds.path}: no subgroups to chart")
     chart = resolve_chart(ds, settings)

@@ -118,7 +118,10 @@ def centring_k(mean: float, lsl: float, usl: float) -> float:
     ----------
     Kane, V. E. (1986), "Process capability indices", Journal of Quality Technology 18(1).
     """
-    return abs((usl + lsl) / 2.0 - mean) / ((usl - lsl) / 2.0)
+    half = (usl - lsl) / 2.0
+    if not half > 0:
+        return None
+    return abs((usl + lsl) / 2.0 - mean) / half
 
 
 def cpm_index(mean: float, sd: float, target: float, lsl: float, usl: float) -> float | None:

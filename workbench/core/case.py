@@ -8,7 +8,6 @@ replays is a trail whose every step made sense.  File handling lives in ``casefi
 from __future__ import annotations
 
 import getpass
-import math
 import os
 import re
 import socket
@@ -207,9 +206,8 @@ class _Builder:
 
     def state(self) -> CaseState:
         return CaseState(self.settings, tuple(sorted(self.targets.values(), key=exclusion_order)), dict(self.info),
-                         tuple(self.notes),
-                         dict(self.marks), self.frozen, tuple(self.causes), self.first_limits, self.limits,
-                         self.head, self.seq, self.created_by, self.created_time)
+                         tuple(self.notes), dict(self.marks), self.frozen, tuple(self.causes), self.first_limits,
+                         self.limits, self.head, self.seq, self.created_by, self.created_time)
 
     def apply(self, ev: Event) -> None:
         where, p = f"event {ev.seq}", ev.payload
@@ -243,7 +241,8 @@ class _Builder:
                     raise WorkbenchError(f"{where}: {target.key} is already excluded")
                 cause, signal = _opt_str(p.get("cause"), where, "cause"), _opt_str(p.get("signal"), where, "signal")
                 if cause is not None and cause not in self.causes:
-                    raise WorkbenchError(f"{where}: cause {cause!r} is not in the cause list ({', '.join(self.causes)})")
+                    raise WorkbenchError(f"{where}: cause {cause!r} is not in the cause list "
+                                         f"({', '.join(self.causes)})")
                 self.targets[target.key] = target
                 self.info[target.key] = ExclusionInfo(reason, cause, signal, ev.author, ev.time, ev.seq)
         elif k == "note":
@@ -318,7 +317,8 @@ def exclusion_payload(target: Exclusion) -> dict[str, Any]:
 
 
 def exclusion_from_payload(p: Mapping[str, Any], where: str) -> Exclusion:
-    return Exclusion(_str(p.get("subgroup"), where, "subgroup", empty=False), _opt_str(p.get("stream"), where, "stream"))
+    return Exclusion(_str(p.get("subgroup"), where, "subgroup", empty=False),
+                     _opt_str(p.get("stream"), where, "stream"))
 
 
 def settings_from_dict(d: Any, where: str) -> Settings:
@@ -492,46 +492,3 @@ def _flat(d: dict, prefix: str = "") -> dict[str, Any]:
         else:
             out[prefix + k] = v
     return out
-
-
-def snapshot_difference(recorded: Any, computed: Any, rel: float = 1e-9, path: str = "") -> str | None:
-    """Where two limits snapshots differ (numbers compared with relative tolerance ``rel``), or None."""
-    here = path or "limits"
-    if isinstance(recorded, dict) and isinstance(computed, dict):
-        for key in sorted(set(recorded) | set(computed), key=str):
-            if key not in recorded or key not in computed:
-                return f"{path}{key}: present in only one of them"
-            diff = snapshot_difference(recorded[key], computed[key], rel, f"{path}{key}.")
-            if diff:
-                return diff
-        return None
-    here = here.rstrip(".")
-    if isinstance(recorded, list) and isinstance(computed, list):
-        if len(recorded) != len(computed):
-            return f"{here}: {len(recorded)} values recorded, {len(computed)} recomputed"
-        for i, (a, b) in enumerate(zip(recorded, computed)):
-            diff = snapshot_difference(a, b, rel, f"{path.rstrip('.')}[{i}].")
-            if diff:
-                return diff
-        return None
-    numbers = all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in (recorded, computed))
-    if numbers:
-        if math.isclose(recorded, computed, rel_tol=rel, abs_tol=1e-300):
-            return None
-    elif recorded == computed:
-        return None
-    return f"{here}: recorded {recorded!r}, recomputed {computed!r}"
-
-
-def limits_gaps(events: Iterable[Event]) -> list[str]:
-    """Events whose limits before differ from the limits after the previous limit-changing event
-    (on the same data); the check that needs no data."""
-    problems, last = [], None
-    for ev in events:
-        if ev.limits_before is not None and last is not None and last[0] == ev.data_bytes:
-            diff = snapshot_difference(last[1], ev.limits_before)
-            if diff:
-                problems.append(f"event {ev.seq}: its limits before do not follow the previous limits ({diff})")
-        if ev.limits_after is not None:
-            last = (ev.data_bytes, ev.limits_after)
-    return problems

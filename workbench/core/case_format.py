@@ -187,7 +187,7 @@ def check_data(ref: DataRef, case_path: Path) -> DataStatus:
                       "bytes no longer match the recorded SHA-256)")
 
 
-# ---- reading and writing the document -------------------------------------------------------
+# ---- parsing and rendering the document -----------------------------------------------------
 
 @dataclass(frozen=True)
 class Document:
@@ -270,7 +270,11 @@ def chain_break(doc: dict) -> tuple[int, str] | None:
 
 def parse(raw: bytes, source: str) -> Document:
     """Parse, check and replay a case file; raises WorkbenchError (one line) on anything malformed."""
-    doc = read_json(raw, source)
+    return build(read_json(raw, source), source)
+
+
+def build(doc: dict, source: str) -> Document:
+    """A Document from the top-level object :func:`read_json` returned."""
     broken = chain_break(doc)
     data = data_ref_from_dict(doc.get("data"), source)
     try:
@@ -294,6 +298,7 @@ def render(data: dict, events: tuple[Event, ...]) -> bytes:
 
 
 def read_bytes(path: Path) -> bytes:
+    """A case file's bytes, or a one-line WorkbenchError naming it."""
     try:
         return path.read_bytes()
     except FileNotFoundError:

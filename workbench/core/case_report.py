@@ -180,7 +180,8 @@ def case_report_text(case: Case, analysis: Analysis | None = None, verification:
     now = _limits_now(case, analysis)
     L.append("limits    first → now")
     for name, *vals in _limit_rows(st.first_limits, now):
-        L.append(f"  {name:<7} centre {vals[0]} → {vals[3]}   LCL {vals[1]} → {vals[4]}   UCL {vals[2]} → {vals[5]}")
+        L.append(f"  {name:<7} centre {vals[0]} → {vals[3]}   LCL {vals[1]} → {vals[4]}   "
+                 f"UCL {vals[2]} → {vals[5]}")
     L.append("          " + _frozen_words(case))
     L.append(f"excluded  {len(st.exclusions)}")
     for ex in st.exclusions:
@@ -189,7 +190,8 @@ def case_report_text(case: Case, analysis: Analysis | None = None, verification:
         L.append(f"  {p(ex.key)}: {p(i.reason)}{extra}  — {p(i.author)}, {p(i.time)} (event {i.seq})")
     rows, hidden = _signal_rows(st, analysis)
     marked = [r for r in rows if r["state"] != "open"]
-    L.append(f"signals   {len(marked)} with a state" + (f", {len(rows) - len(marked) + hidden} open" if analysis else ""))
+    open_count = f", {len(rows) - len(marked) + hidden} open" if analysis is not None else ""
+    L.append(f"signals   {len(marked)} with a state{open_count}")
     for r in marked:
         gone = "" if r["detected"] else " (no longer detected)"
         note = f": {p(r['note'])}" if r["note"] else ""
@@ -198,7 +200,8 @@ def case_report_text(case: Case, analysis: Analysis | None = None, verification:
     for n in st.notes:
         L.append(f"  [{p(_note_on(n.kind, n.target))}] {p(n.text)}  — {p(n.author)}, {p(n.time)} (event {n.seq})")
     L.append("trail")
-    L += [f"  {ev.seq:>4} {p(ev.time)} {p(ev.author)}: {line}" for ev, line in zip(case.events, describe_trail(case.events))]
+    L += [f"  {ev.seq:>4} {p(ev.time)} {p(ev.author)}: {line}"
+          for ev, line in zip(case.events, describe_trail(case.events))]
     return "\n".join(L) + "\n"
 
 

@@ -1,13 +1,15 @@
 """``workbench verify``: check a case file end to end without changing anything."""
 from __future__ import annotations
 
+import math
 import tempfile
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any, Iterable
 
-from .case import CaseState, apply, limits_gaps, replay, snapshot_difference
+from .case import CaseState, Event, apply, replay
 from .case_format import (
-    DataStatus, Document, canonical_json, chain_break, check_data, jsonable, parse, read_bytes, read_json, render,
+    DataStatus, Document, build, canonical_json, chain_break, check_data, jsonable, read_bytes, read_json, render,
 )
 from .model import Dataset, WorkbenchError
 
@@ -17,6 +19,7 @@ class Verification:
     """The result of checking a case file end to end."""
 
     path: str
+    """The case file checked."""
     intact: bool
     """True only when the chain is whole, the trail replays, the data are unchanged (or only appended to)
     and the recorded limits agree with a recomputation."""
@@ -50,12 +53,14 @@ def verify(path: str | Path, recompute: bool = True) -> Verification:
     path = Path(path)
     raw = read_bytes(path)
     top = read_json(raw, str(path))
-    broken = chain_break(top)
-    problems = [f"the chain breaks at event {broken[0]}: {broken[1]}"] if broken else []
     try:
-        doc = parse(raw, str(path))
+        doc = build(top, str(path))
     except WorkbenchError as exc:
+        broken = chain_break(top)
+        problems = [f"the chain breaks at event {broken[0]}: {broken[1]}"] if broken else []
         return Verification(str(path), False, len(top["trail"]), None, broken, None, tuple(problems + [str(exc)]))
+    broken = doc.chain_break
+    problems = [f"the chain breaks at event {broken[0]}: {broken[1]}"] if broken else []
     if not broken:
         edited = _edited_text(raw, doc)
         if edited:
@@ -136,4 +141,47 @@ def _recompute_limits(doc: Document, status: DataStatus) -> list[str]:
             if diff:
                 problems.append(f"event {ev.seq}: the limits recorded {when} the action differ from a recomputation "
                                 f"({diff})")
+    return problems
+
+
+def snapshot_difference(recorded: Any, computed: Any, rel: float = 1e-9, path: str = "") -> str | None:
+    """Where two limits snapshots differ (numbers compared with relative tolerance ``rel``), or None."""
+    here = path or "limits"
+    if isinstance(recorded, dict) and isinstance(computed, dict):
+        for key in sorted(set(recorded) | set(computed), key=str):
+            if key not in recorded or key not in computed:
+                return f"{path}{key}: present in only one of them"
+            diff = snapshot_difference(recorded[key], computed[key], rel, f"{path}{key}.")
+            if diff:
+                return diff
+        return None
+    here = here.rstrip(".")
+    if isinstance(recorded, list) and isinstance(computed, list):
+        if len(recorded) != len(computed):
+            return f"{here}: {len(recorded)} values recorded, {len(computed)} recomputed"
+        for i, (a, b) in enumerate(zip(recorded, computed)):
+            diff = snapshot_difference(a, b, rel, f"{path.rstrip('.')}[{i}].")
+            if diff:
+                return diff
+        return None
+    numbers = all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in (recorded, computed))
+    if numbers:
+        if math.isclose(recorded, computed, rel_tol=rel, abs_tol=1e-300):
+            return None
+    elif recorded == computed:
+        return None
+    return f"{here}: recorded {recorded!r}, recomputed {computed!r}"
+
+
+def limits_gaps(events: Iterable[Event]) -> list[str]:
+    """Events whose limits before differ from the limits after the previous limit-changing event
+    (on the same data); the check that needs no data."""
+    problems, last = [], None
+    for ev in events:
+        if ev.limits_before is not None and last is not None and last[0] == ev.data_bytes:
+            diff = snapshot_difference(last[1], ev.limits_before)
+            if diff:
+                problems.append(f"event {ev.seq}: its limits before do not follow the previous limits ({diff})")
+        if ev.limits_after is not None:
+            last = (ev.data_bytes, ev.limits_after)
     return problems

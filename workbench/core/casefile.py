@@ -13,19 +13,20 @@ import os
 from pathlib import Path
 from typing import Any
 
-from .case import DEFAULT_CAUSES, CaseState, Event, apply, default_author, exclusion_payload, replay, \
-    settings_from_dict, utc_now
+from .case import (
+    DEFAULT_CAUSES, CaseState, Event, apply, default_author, exclusion_payload, replay, settings_from_dict, utc_now,
+)
 from .case_disk import CaseLock, LockHolder, atomic_write, backup_path, lock_path
 from .case_format import (
-    SUFFIX, DataRef, DataStatus, Document, canonical_json, chain_break, check_data, data_ref_from_dict, event_hash,
-    jsonable, parse, read_bytes, read_json, render, seal, sha256,
+    SUFFIX, DataRef, DataStatus, Document, build, canonical_json, chain_break, check_data, data_ref_from_dict,
+    event_hash, jsonable, parse, read_bytes, read_json, render, seal, sha256,
 )
 from .case_verify import Verification, verify
 from .model import Analysis, Dataset, Exclusion, FrozenLimits, LayoutRequest, Settings, WorkbenchError
 
 __all__ = [
     "Case", "CaseLock", "DataRef", "DataStatus", "Document", "LockHolder", "SUFFIX", "Verification", "atomic_write",
-    "backup_path", "canonical_json", "chain_break", "check_data", "data_ref_from_dict", "default_case_path",
+    "backup_path", "build", "canonical_json", "chain_break", "check_data", "data_ref_from_dict", "default_case_path",
     "event_hash", "jsonable", "lock_path", "parse", "read_json", "render", "seal", "sha256", "verify",
 ]
 
@@ -41,8 +42,6 @@ def _relative(data_path: str | Path, folder: Path) -> str:
         return Path(os.path.relpath(target, folder.resolve())).as_posix()
     except ValueError:  # another drive
         return target.as_posix()
-
-
 
 
 class Case:
@@ -65,11 +64,13 @@ class Case:
         self.state = doc.state
         """The replay of the trail (CaseState)."""
         self.chain_break = doc.chain_break
+        """(event number, reason) where the hash chain breaks, or None."""
         self.author = author
         """Author used for actions that name none."""
         self.readonly_reason = readonly_reason
         """Why actions are refused, or None."""
         self.data_status = data_status
+        """How the data file compares with the recorded fingerprint (DataStatus)."""
         self.notices = notices
         """Plain-words notices from opening (data grown, stale lock taken over, holder of the lock)."""
         self._data_dict, self._raw, self._lock = doc.data_dict, raw, lock
@@ -130,7 +131,7 @@ class Case:
             lock.release()
             lock = None
         if lock:  # temporary files of a writer that was killed mid-write (writers hold the lock)
-            for name in os.listdir(path.parent or "."):
+            for name in os.listdir(path.parent):
                 if name.startswith(f".{path.name}.") and name.endswith(".tmp"):
                     (path.parent / name).unlink(missing_ok=True)
         return cls(path, doc, raw, author, lock, reason, status, notices)
@@ -283,6 +284,8 @@ class Case:
         self.data_status = check_data(self.data, self.path)
         if self.data_status.status == "missing":
             raise WorkbenchError(self.data_status.message)
+        if not self.data_status.usable and not self.readonly:  # changed since the case was opened
+            self.readonly_reason = self.data_status.message
         return load(str(self.data_status.path), self.data.request)
 
     def analyse(self, dataset: Dataset, state: CaseState | None = None) -> Analysis:
@@ -299,8 +302,8 @@ class Case:
     def _record(self, dataset: Dataset, kind: str, payload: dict, author: str | None,
                 before: Analysis | None = None) -> Analysis:
         from .analysis import analyse, limits_snapshot
+        _ev, state = self._event(kind, payload, author)  # checks the action before any analysis runs
         before = before or self.analyse(dataset)
-        _ev, state = self._event(kind, payload, author)  # checks the action before the analysis runs
         after = analyse(dataset, state.settings, state.exclusions, state.frozen)
         self._append(kind, payload, author, limits_snapshot(before), limits_snapshot(after), int(dataset.size_bytes))
         self._cache = (dataset, self.state.head_hash, after)

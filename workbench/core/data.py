@@ -6,7 +6,8 @@ module decides the layout and arranges the readings as subgroups x streams.
 Layout detection (each rule is skipped when the request gives that part):
 
 1. Names are compared ignoring case, spaces and punctuation.  A column is a *number*
-   column when most of its non-empty cells are numbers, else *text* (or *empty*).
+   column when at least half of its non-empty cells are numbers (the others are then
+   reported as bad cells), else *text* (or *empty* when it has no filled cell).
 2. Summary: columns named n / size / count, mean / avg / average / xbar and range / r
    or sd / s / stdev / std  ->  ``summary``.
 3. Key (subgroup) column: the first column named subgroup, group, batch, lot, sample, time,
@@ -125,7 +126,6 @@ def detect(table: Table, req: LayoutRequest) -> Layout:
         stream = _find_stream(table, cols, norm, key, used)
     if repeats and not by_name and stream is None:
         key, repeats = None, False  # a first text column that repeats is not a key
-        time = time if time in cols and req.time else None
     if count:
         if req.kind in ("wide", "summary"):
             raise WorkbenchError(f"{table.path}: attribute data (--count) are long or individuals, not {req.kind}")
@@ -201,7 +201,7 @@ def _first_repeat(table: Table, col: str) -> str:
     vals = sniff.as_text(table, col)
     i = int(np.argmax(pd.Series(vals).duplicated().to_numpy()))
     j = int(np.flatnonzero(vals == vals[i])[0])
-    return f"{vals[i]!r} at rows {int(table.lines[j])} and {int(table.lines[i])}"
+    return f"{str(vals[i])!r} at rows {int(table.lines[j])} and {int(table.lines[i])}"
 
 
 def describe_layout(ds: Dataset) -> str:

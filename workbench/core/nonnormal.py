@@ -166,9 +166,16 @@ def weibull_mle(u: np.ndarray) -> tuple[float, float]:
     return float(c), scale
 
 
+BOXCOX_MAX_LAMBDA = 5.0
+"""Largest |λ| accepted (common practice restricts the Box-Cox search to −5…5)."""
+
+
 def fit_boxcox(u: np.ndarray) -> Candidate:
     """Box-Cox model of positive readings ``u``: lambda by ML, then a normal on the transformed scale."""
     lam = boxcox_lambda(u)
+    if abs(lam) > BOXCOX_MAX_LAMBDA:
+        raise ValueError(f"\u03bb = {lam:.3g} lies outside \u00b1{BOXCOX_MAX_LAMBDA:g}, where the transform is "
+                         "numerically unstable (often a sign of an outlier or a narrow range far from 0)")
     with np.errstate(over="ignore", invalid="ignore"):
         y = boxcox(u, lam)
         mean_t, sd_t = float(y.mean()), float(y.std(ddof=1))

@@ -452,7 +452,7 @@ def int_text(a: np.ndarray) -> np.ndarray:
     (several times faster for large arrays of non-negative integers)."""
     a = np.asarray(a, dtype=np.int64)
     if a.size < 1000 or a.min() < 0 or a.max() >= _POW10[18]:
-        return a.astype(str)
+        return np.array([str(x) for x in a.tolist()], dtype=str) if a.size else a.astype(str)
     width = len(str(int(a.max())))
     ndig = np.searchsorted(_POW10[1:width], a, side="right") + 1
     order = None
@@ -505,18 +505,18 @@ def as_numbers(table: Table, column: str) -> Numbers:
             return Numbers(np.where(bad, np.nan, v), np.isnan(v), bad, s.astype(str).to_numpy(dtype=str))
         return Numbers(v, np.isnan(v), bad)
     txt = as_text(table, column)
-    ser = pd.Series(txt, dtype=object)
-    empty = (txt == "") | ser.str.lower().isin(MISSING_MARKERS).to_numpy()
-    if table.decimal == ",":
-        ser = ser.str.replace(",", ".", regex=False)
-    num = pd.to_numeric(ser.where(~empty, "nan"), errors="coerce").to_numpy(dtype=np.float64)
+    cand = np.strings.replace(txt, ",", ".") if table.decimal == "," else txt
+    num = pd.to_numeric(pd.Series(cand, dtype=object), errors="coerce").to_numpy(dtype=np.float64)
+    empty = txt == ""
+    failed = np.flatnonzero(~np.isfinite(num) & ~empty)
+    empty[failed[np.isin(np.strings.lower(txt[failed]), MISSING_MARKERS)]] = True
     bad = ~empty & ~np.isfinite(num)
     return Numbers(np.where(empty | bad, np.nan, num), empty, bad, txt if bad.any() else None)
 
 
 @_cached
 def column_kind(table: Table, column: str) -> str:
-    """``number`` when most non-empty cells are numbers, ``text``, or ``empty``;
+    """``number`` when at least half the non-empty cells are numbers, ``text``, or ``empty``;
     columns classed as text (keys, stream names) are always ``text``."""
     s = table.frame[column]
     if column in table.text_columns or pd.api.types.is_datetime64_any_dtype(s) or pd.api.types.is_bool_dtype(s):
@@ -524,7 +524,7 @@ def column_kind(table: Table, column: str) -> str:
     nums = as_numbers(table, column)
     filled = int((~nums.empty).sum())
     good = int(np.isfinite(nums.values).sum())
-    return "empty" if filled == 0 else ("number" if 2 * good > filled else "text")
+    return "empty" if filled == 0 else ("number" if 2 * good >= filled else "text")
 
 
 @_cached

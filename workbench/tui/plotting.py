@@ -8,7 +8,11 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import io
+
+from rich.console import Console
 from rich.text import Text
+from textual.strip import Strip
 from textual_plotext.plot import Plot
 
 from .view import EXCLUDED, NORMAL, OPEN, REVIEWED, safe
@@ -39,11 +43,12 @@ class ChartData:
 
 @dataclass(frozen=True, eq=False)
 class Picture:
-    """A built chart: the text and where its canvas lies in it."""
+    """A built chart: its lines as strips, and where its canvas lies in them."""
 
-    text: Text
-    lines: tuple[int, ...]
-    """Offset of each line in ``text`` (for the cursor overlay)."""
+    strips: tuple[Strip, ...]
+    """One strip per line, ready for the compositor (built in the worker)."""
+    plain: tuple[str, ...]
+    """The same lines as plain text (for tests and reading)."""
     left: int
     """Column of the first canvas cell."""
     cols: int
@@ -54,6 +59,11 @@ class Picture:
     width: int
     height: int
     token: int
+
+
+def rgb(colour: tuple[int, int, int]) -> str:
+    """A rich colour string for an RGB triple."""
+    return "rgb({},{},{})".format(*colour)
 
 
 def short(v: float) -> str:
@@ -161,8 +171,17 @@ def _picture(text: Text, data: ChartData, win: Window, width: int, height: int, 
         start = offsets[top] + left + 1
         styled = Text(title, style="bold")
         text = text[:start] + styled + text[start + len(title):]
-    return Picture(text, tuple(offsets), left, max(right - left, 1), top + 1, max(bottom - top - 1, 1), win,
-                   width, height, token)
+    return Picture(to_strips(text, width), tuple(text.plain.split("\n")), left, max(right - left, 1), top + 1,
+                   max(bottom - top - 1, 1), win, width, height, token)
+
+
+def to_strips(text: Text, width: int) -> tuple[Strip, ...]:
+    """Render ``text`` into strips of ``width`` cells (safe to call off the UI thread)."""
+    console = Console(width=width, file=io.StringIO(), color_system="truecolor", force_terminal=True,
+                      legacy_windows=False, highlight=False, markup=False, emoji=False)
+    lines = console.render_lines(text, console.options.update(width=width, height=None, no_wrap=True),
+                                 pad=True, new_lines=False)
+    return tuple(Strip(line, width) for line in lines)
 
 
 def legend_text() -> Text:
@@ -171,7 +190,7 @@ def legend_text() -> Text:
     for i, (words, cls) in enumerate(LEGEND):
         if i:
             t.append("   ")
-        t.append(GLYPH[cls] + " ", style=f"bold rgb{COLOUR[cls]}")
+        t.append(GLYPH[cls] + " ", style=f"bold {rgb(COLOUR[cls])}")
         t.append(words)
     t.append("   │ cursor", style="reverse")
     return t

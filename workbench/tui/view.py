@@ -44,6 +44,10 @@ class SignalRow:
     """Where the cursor goes for this signal (the point where the rule fired)."""
     span: str
     """Subgroup label(s) in words."""
+    label: str
+    """Label of the first subgroup (display text)."""
+    length: int
+    """Subgroups from first to last (0 for a signal that no longer exists)."""
     state: str
     """open | explained | no-cause-found | excluded."""
 
@@ -117,7 +121,8 @@ def marks_for(a: Analysis, state: Any) -> Marks:
         st = state.signal_state(s.key) if state is not None else "open"
         counts[st] = counts.get(st, 0) + 1
         anchor = s.fired[0] if s.fired else s.first
-        rows.append(SignalRow(s.key, s.chart, s.rule, s.description, s.first, s.last, anchor, _span(labels, s), st))
+        rows.append(SignalRow(s.key, s.chart, s.rule, s.description, s.first, s.last, anchor, _span(labels, s),
+                              safe(labels[s.first]), s.last - s.first + 1, st))
         (opened if st == "open" else reviewed).append(s)
     for s in reviewed:
         if s.chart in codes:
@@ -139,7 +144,8 @@ def marks_for(a: Analysis, state: Any) -> Marks:
             live.add(key)
             m = _KEY.match(key)
             chart, rule, label = (m["chart"], m["rule"], m["label"]) if m else ("?", key, "")
-            rows.append(SignalRow(key, chart, rule, words.get(rule, rule), -1, -1, -1, safe(label), "excluded"))
+            rows.append(SignalRow(key, chart, rule, words.get(rule, rule), -1, -1, -1, safe(label), safe(label), 0,
+                                  "excluded"))
     firsts = np.array([r.first for r in rows[:current]], dtype=np.int64)
     lasts = np.array([r.last for r in rows[:current]], dtype=np.int64)
     open_idx = [i for i, r in enumerate(rows[:current]) if r.state == "open"]

@@ -17,7 +17,7 @@ from ..messages import ChartsReady
 from ..plotting import ChartData, build, label_width, legend_text
 from ..session import Snapshot
 from ..widgets.control_chart import ControlChart
-from ..widgets.panels import SubgroupPanel, status_text
+from ..widgets.panels import SubgroupPanel, TextPanel, status_text
 from ..widgets.signal_list import SignalList
 from ..window import Window, follow, window_at
 
@@ -74,7 +74,7 @@ class BenchScreen(Screen):
             with Vertical(id="side"):
                 yield SignalList(id="signals")
                 yield SubgroupPanel(id="subgroup")
-        yield Static(id="status", markup=False)
+        yield TextPanel(id="status")
         yield Footer()
 
     def on_mount(self) -> None:
@@ -89,8 +89,8 @@ class BenchScreen(Screen):
         self.snap = snap
         m = snap.dataset.m
         self.cursor = max(0, min(self.cursor, m - 1))
-        if self.window is None or self.window.stop > m:
-            self.window = window_at(self.cursor, self._default_size(), m)
+        if self.window is not None and self.window.stop > m:
+            self.window = None
         spread = self.query_one("#spread", ControlChart)
         spread.display = snap.analysis.spread is not None
         mk = snap.marks
@@ -100,19 +100,23 @@ class BenchScreen(Screen):
         self.request_charts()
 
     def _default_size(self) -> int:
+        """One subgroup per plot column (the y labels take about 13 columns)."""
         width = self.query_one("#location").size.width or self.app.size.width
-        return max(MIN_WINDOW, width - 14)
+        return max(MIN_WINDOW, width - 13)
 
     # -- charts -----------------------------------------------------------------------------
 
     def request_charts(self) -> None:
-        snap, win = self.snap, self.window
-        if snap is None or win is None:
+        snap = self.snap
+        if snap is None:
             return
         widgets = [self.query_one("#location", ControlChart), self.query_one("#spread", ControlChart)]
         sizes = [(w.size.width, w.size.height) for w in widgets]
         if sizes[0][0] <= 0 or sizes[0][1] <= 0:
             return
+        if self.window is None:
+            self.window = window_at(self.cursor, self._default_size(), snap.dataset.m)
+        win = self.window
         self.token += 1
         self._build(self.token, snap, win, sizes)
 
@@ -149,9 +153,9 @@ class BenchScreen(Screen):
             w.set_cursor(self.cursor)
 
     def on_resize(self) -> None:
-        narrow, short = self.size.width < 100, self.size.height < 30
-        self.set_class(narrow, "narrow")
-        self.set_class(short, "short")
+        self.set_class(self.size.width < 100, "narrow")
+        self.set_class(self.size.height < 30, "short")
+        self.set_class(self.size.width >= 150, "wide")
         self.call_after_refresh(self.request_charts)
 
     # -- the cursor ---------------------------------------------------------------------------
@@ -162,7 +166,7 @@ class BenchScreen(Screen):
             return
         m = snap.dataset.m
         self.cursor = max(0, min(int(position), m - 1))
-        win = follow(self.window, self.cursor, m) if self.window else window_at(self.cursor, self._default_size(), m)
+        win = follow(self.window, self.cursor, m) if self.window else None
         if win != self.window:
             self.window = win
             self.request_charts()
@@ -185,7 +189,7 @@ class BenchScreen(Screen):
 
     def update_status(self, busy: str = "") -> None:
         if self.snap is not None:
-            self.query_one("#status", Static).update(status_text(self.snap, self.cursor, self.app.busy, busy))
+            self.query_one("#status", TextPanel).set_text(status_text(self.snap, self.cursor, self.app.busy, busy))
 
     @on(ControlChart.Clicked)
     def chart_clicked(self, msg: ControlChart.Clicked) -> None:

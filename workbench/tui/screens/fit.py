@@ -66,8 +66,7 @@ class FitScreen(Screen):
             self.show_snapshot(self.app.snapshot)
 
     def spec(self):
-        s = self.snap.settings if False else (self.snap.state.settings if self.snap else None)
-        return s.spec if s is not None else None
+        return self.snap.state.settings.spec if self.snap is not None else None
 
     def show_snapshot(self, snap: Snapshot) -> None:
         self.snap = snap

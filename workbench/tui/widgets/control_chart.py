@@ -1,20 +1,25 @@
 """One control chart on the bench: a plotext picture built in a worker, plus a cursor column.
 
-The picture is built off the UI thread for one window of subgroups; moving the cursor only
-restyles one column of the finished picture (no plotext, nothing proportional to the series).
+The picture (plotext output already cut into strips) is built off the UI thread for one window
+of subgroups.  Moving the cursor only repaints two one-cell-wide columns: the old and the new
+cursor position — no plotext, nothing proportional to the series or even to the picture.
 """
 from __future__ import annotations
 
 from dataclasses import dataclass
 
 import numpy as np
-from rich.text import Text
+from rich.style import Style
 from textual import events
+from textual.geometry import Region
 from textual.message import Message
+from textual.strip import Strip
 from textual_plotext import PlotextPlot
 
 from ..plotting import Picture
 from ..window import column_of, position_of
+
+CURSOR = Style(reverse=True)
 
 
 class ControlChart(PlotextPlot):
@@ -39,9 +44,16 @@ class ControlChart(PlotextPlot):
         self.refresh()
 
     def set_cursor(self, position: int | None) -> None:
-        if position != self.cursor:
-            self.cursor = position
-            self.refresh()
+        if position == self.cursor:
+            return
+        old = self.cursor_column()
+        self.cursor = position
+        new = self.cursor_column()
+        pic = self.picture
+        if pic is None:
+            return
+        for col in {old, new} - {None}:
+            self.refresh(Region(pic.left + col, pic.top, 1, pic.rows))
 
     def cursor_column(self) -> int | None:
         """Canvas column of the cursor in the current picture (None when outside it)."""
@@ -50,19 +62,24 @@ class ControlChart(PlotextPlot):
             return None
         return column_of(self.cursor, pic.window, pic.cols)
 
-    def render(self) -> Text:
+    def render_line(self, y: int) -> Strip:
+        width = self.size.width
         pic = self.picture
+        base = self.rich_style
         if pic is None:
-            return Text(self.placeholder, style="dim")
+            return _text_strip(self.placeholder, width, base) if y == 0 else Strip.blank(width, base)
+        if y >= len(pic.strips):
+            return Strip.blank(width, base)
+        strip = pic.strips[y]
         col = self.cursor_column()
-        if col is None:
-            return pic.text
-        text = pic.text.copy()
-        x = pic.left + col
-        for row in range(pic.top, min(pic.top + pic.rows, len(pic.lines))):
-            start = pic.lines[row] + x
-            text.stylize("reverse", start, start + 1)
-        return text
+        if col is not None and pic.top <= y < pic.top + pic.rows:
+            x = pic.left + col
+            left, mid, right = strip.divide([x, x + 1, strip.cell_length])[:3]
+            strip = Strip.join([left, mid.apply_style(CURSOR), right])
+        strip = strip.apply_style(base)
+        if strip.cell_length != width:
+            strip = strip.crop_extend(0, width, base)
+        return strip
 
     def on_click(self, event: events.Click) -> None:
         pic = self.picture
@@ -72,3 +89,8 @@ class ControlChart(PlotextPlot):
         if 0 <= col < pic.cols and pic.top <= event.y < pic.top + pic.rows + 1:
             event.stop()
             self.post_message(self.Clicked(self, position_of(col, pic.window, pic.cols, self.codes)))
+
+
+def _text_strip(text: str, width: int, style: Style) -> Strip:
+    from rich.segment import Segment
+    return Strip([Segment(text, style + Style(dim=True))]).crop_extend(0, width, style)

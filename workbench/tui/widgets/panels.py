@@ -3,13 +3,12 @@ from __future__ import annotations
 
 import numpy as np
 from rich.text import Text
-from textual.containers import VerticalScroll
-from textual.widgets import Static
+from textual.widget import Widget
 
 from workbench.core.analysis import sigma_label
 from workbench.core.report import fmt
 
-from ..plotting import COLOUR, GLYPH, short
+from ..plotting import COLOUR, GLYPH, rgb, short
 from ..session import Snapshot
 from ..view import NORMAL, STATE_WORDS, safe
 
@@ -28,17 +27,14 @@ def subgroup_text(snap: Snapshot, p: int) -> Text:
     t = Text(no_wrap=False)
     t.append(label, style="bold")
     t.append(f"  ({p + 1:,} of {ds.m:,})\n", style="dim")
-    if ds.times is not None:
-        t.append(f"time {safe(ds.times[p])}\n", style="dim")
+    if ds.times is not None and ds.layout.time and ds.layout.time != ds.layout.subgroup:
+        t.append(f"time {safe(str(ds.times[p])[:19].replace('T', ' '))}\n", style="dim")
     for c in a.charts:
         code = int(snap.marks.codes[c.name][p])
-        t.append(f"{c.name:<6}")
+        t.append(f"{c.name:<5}")
         t.append(f"{fmt(c.values[p]):>10}", style="bold")
-        t.append(f"  LCL {_limit_at(c.lcl, p)} · CL {_limit_at(c.center, p)} · UCL {_limit_at(c.ucl, p)}",
-                 style="dim")
-        if code != NORMAL:
-            t.append(f" {GLYPH[code]}", style=f"bold rgb{COLOUR[code]}")
-        t.append("\n")
+        t.append(f" {GLYPH[code]}" if code != NORMAL else "  ", style=f"bold {rgb(COLOUR[code])}")
+        t.append(f"  {_limit_at(c.lcl, p)} … {_limit_at(c.ucl, p)}\n", style="dim")
     row = snap.marks.row_at(p)
     if row is not None:
         r = snap.marks.rows[row]
@@ -95,14 +91,26 @@ def _readings(t: Text, snap: Snapshot, p: int) -> None:
                  f"{safe(ds.streams[lo])} ({MIN_GLYPH})\n", style="dim")
 
 
-class SubgroupPanel(VerticalScroll, can_focus=False):
+class TextPanel(Widget):
+    """Shows one rich Text; a new text repaints the panel without a new layout."""
+
+    def __init__(self, *, id: str | None = None) -> None:
+        super().__init__(id=id)
+        self.text = Text()
+
+    def set_text(self, text: Text) -> None:
+        self.text = text
+        self.refresh()
+
+    def render(self) -> Text:
+        return self.text
+
+
+class SubgroupPanel(TextPanel, can_focus=False):
     """The selected subgroup's readings by stream."""
 
-    def compose(self):
-        yield Static(id="subgroup-text", markup=False)
-
     def show(self, snap: Snapshot, p: int) -> None:
-        self.query_one("#subgroup-text", Static).update(subgroup_text(snap, p))
+        self.set_text(subgroup_text(snap, p))
 
 
 def status_text(snap: Snapshot, p: int, saving: bool, busy: str = "") -> Text:
@@ -116,7 +124,7 @@ def status_text(snap: Snapshot, p: int, saving: bool, busy: str = "") -> Text:
         t.append(f" │ {c.name} " + " / ".join(short(float(v)) if np.isfinite(v) else "—" for v in lim),
                  style="")
     t.append(" │ ")
-    t.append(f"open {mk.open_count}", style=f"bold rgb{COLOUR[1]}" if mk.open_count else "")
+    t.append(f"open {mk.open_count}", style=f"bold {rgb(COLOUR[1])}" if mk.open_count else "")
     t.append(f" · explained {mk.explained_count} · no cause {mk.no_cause_count} · excluded {mk.excluded_count}")
     if a.phase2_start is not None or snap.state.frozen is not None:
         t.append(" │ ")

@@ -11,9 +11,11 @@ from textual.message import Message
 from textual.scroll_view import ScrollView
 from textual.strip import Strip
 
-from ..plotting import COLOUR, GLYPH
+from ..plotting import COLOUR, GLYPH, rgb
 from ..view import EXCLUDED, OPEN, REVIEWED, STATE_WORDS, SignalRow
 
+LINES = 2
+"""Lines per signal: what and where, then the rule in words."""
 STATE_CLASS = {"open": OPEN, "explained": REVIEWED, "no-cause-found": REVIEWED, "excluded": EXCLUDED}
 
 
@@ -35,7 +37,7 @@ class SignalList(ScrollView, can_focus=False):
         self.rows = rows
         if self.selected is not None and self.selected >= len(rows):
             self.selected = None
-        self.virtual_size = Size(self.size.width, len(rows))
+        self.virtual_size = Size(self.size.width, LINES * len(rows))
         self.refresh()
 
     def select(self, index: int | None) -> None:
@@ -43,40 +45,41 @@ class SignalList(ScrollView, can_focus=False):
             return
         self.selected = index
         if index is not None:
-            self.scroll_to_region(Region(0, index, 1, 1), animate=False, force=True, immediate=True)
+            self.scroll_to_region(Region(0, LINES * index, 1, LINES), animate=False, force=True, immediate=True)
         self.refresh()
 
-    def line_text(self, row: SignalRow) -> list[tuple[str, Style | None]]:
+    def line_parts(self, row: SignalRow, part: int) -> list[tuple[str, Style | None]]:
+        """The segments of line ``part`` (0: what and where, 1: the rule in words) of one row."""
+        if part == 1:
+            return [("    " + row.words, Style(dim=True))]
         cls = STATE_CLASS.get(row.state, OPEN)
-        glyph = Style(color=f"rgb{COLOUR[cls]}", bold=True)
-        return [(GLYPH[cls] + " ", glyph), (f"{row.chart:<5.5} ", None), (f"{row.span:<13.13} ", None),
-                (f"{STATE_WORDS.get(row.state, row.state):<14.14} ", Style(dim=row.state != "open")),
-                (row.words, Style(dim=True))]
+        glyph = Style(color=rgb(COLOUR[cls]), bold=True)
+        where = row.label + (f" +{row.length - 1}" if row.length > 1 else "")
+        state = STATE_WORDS.get(row.state, row.state)
+        return [(GLYPH[cls] + " ", glyph), (f"{row.chart:<5} ", Style(bold=True)), (f"{where:<20} ", None),
+                (state, Style(bold=row.state == "open", dim=row.state != "open"))]
 
     def render_line(self, y: int) -> Strip:
-        index = y + self.scroll_offset.y
+        index, part = divmod(y + self.scroll_offset.y, LINES)
         width = self.size.width
         base = self.rich_style
         if index >= len(self.rows):
             return Strip.blank(width, base)
         chosen = index == self.selected
         segs = []
-        for text, style in self.line_text(self.rows[index]):
+        for text, style in self.line_parts(self.rows[index], part):
             st = base + style if style is not None else base
             if chosen:
                 st = st + Style(reverse=True)
             segs.append(Segment(text, st))
-        strip = Strip(segs).crop(0, width)
-        pad = width - strip.cell_length
-        if pad > 0:
-            strip = Strip(list(strip) + [Segment(" " * pad, base + Style(reverse=True) if chosen else base)])
-        return strip
+        fill = base + Style(reverse=True) if chosen else base
+        return Strip(segs).crop_extend(0, width, fill)
 
     def on_resize(self, event: events.Resize) -> None:
-        self.virtual_size = Size(event.size.width, len(self.rows))
+        self.virtual_size = Size(event.size.width, LINES * len(self.rows))
 
     def on_click(self, event: events.Click) -> None:
-        index = event.y + self.scroll_offset.y
+        index = (event.y + self.scroll_offset.y) // LINES
         if 0 <= index < len(self.rows):
             event.stop()
             self.post_message(self.Picked(index))

@@ -1,0 +1,202 @@
+"""The terminal workbench: opening a case in a worker, owning the snapshot, routing it to screens."""
+from __future__ import annotations
+
+import argparse
+import sys
+from dataclasses import replace
+from pathlib import Path
+
+from textual import on, work
+from textual.app import App
+from textual.binding import Binding
+
+from workbench.core.model import WorkbenchError
+
+from .commands import WorkbenchCommands
+from .dialogs.choice import ChoiceDialog
+from .dialogs.mapping import MappingDialog
+from .flows import Flows
+from .messages import (ActionDone, ActionFailed, OpenFailed, OpenNeedsChoice, OpenNeedsMapping, OpenProgress,
+                       SessionReady)
+from .screens.bench import BenchScreen
+from .screens.loading import LoadingScreen
+from .session import CaseExists, NeedMapping, OpenRequest, Session, Snapshot, open_session
+from .view import safe
+
+
+class WorkbenchApp(Flows, App[int]):
+    """One case on the bench."""
+
+    CSS_PATH = "app.tcss"
+    TITLE = "workbench"
+    COMMANDS = App.COMMANDS | {WorkbenchCommands}
+    BINDINGS = [
+        Binding("question_mark,f1", "help", "Help", id="help"),
+        Binding("q", "quit", "Quit", id="quit"),
+        Binding("ctrl+p", "command_palette", "Commands", id="commands", show=False),
+    ]
+
+    def __init__(self, request: OpenRequest, hide_times: bool = False, quiet_reuse: bool = False) -> None:
+        super().__init__()
+        self.request = request
+        self.hide_times = hide_times
+        """Test hook: no times or hashes on screen (for snapshots)."""
+        self.quiet_reuse = quiet_reuse
+        self.session: Session | None = None
+        self.snapshot: Snapshot | None = None
+        self.busy = False
+        self.error: str | None = None
+
+    # -- opening ------------------------------------------------------------------------------
+
+    def on_mount(self) -> None:
+        self.push_screen(LoadingScreen(self.request.path.name))
+        self._open(self.request)
+
+    @work(thread=True, exclusive=True, group="open")
+    def _open(self, req: OpenRequest) -> None:
+        progress = lambda what, f: self.post_message(OpenProgress(what, f))  # noqa: E731
+        try:
+            session = open_session(req, progress)
+        except CaseExists as exc:
+            self.post_message(OpenNeedsChoice(exc.case_path, exc.summary))
+        except NeedMapping as exc:
+            self.post_message(OpenNeedsMapping(exc))
+        except (WorkbenchError, OSError) as exc:
+            self.post_message(OpenFailed(str(exc)))
+        else:
+            progress("drawing the charts", 1.0)
+            self.post_message(SessionReady(session, session.snapshot()))
+
+    @on(OpenProgress)
+    def open_progress(self, msg: OpenProgress) -> None:
+        if isinstance(self.screen, LoadingScreen):
+            self.screen.progress(msg.what, msg.fraction)
+
+    @on(OpenNeedsChoice)
+    def open_choice(self, msg: OpenNeedsChoice) -> None:
+        if self.quiet_reuse:
+            self._reopen(replace(self.request, reuse="reuse"))
+            return
+        text = (f"A case for {safe(self.request.path.name)} already exists: {safe(msg.case_path)} "
+                f"({safe(msg.summary)}).\nOpen it to go on with that investigation, or start a new case beside it.")
+        choices = [("reuse", "Open the existing case"), ("new", "Start a new case"), ("quit", "Quit")]
+
+        def chosen(c: str | None) -> None:
+            if c in ("reuse", "new"):
+                self._reopen(replace(self.request, reuse=c))
+            else:
+                self.exit(0)
+
+        self.push_screen(ChoiceDialog("A case already exists", text, choices), chosen)
+
+    @on(OpenNeedsMapping)
+    def open_mapping(self, msg: OpenNeedsMapping) -> None:
+        err: NeedMapping = msg.error
+
+        def mapped(request) -> None:
+            if request is None:
+                self.exit(0)
+            else:
+                self._reopen(replace(self.request, request=request))
+
+        self.push_screen(MappingDialog(str(err), err.path.name, err.columns, err.samples, self.request.request), mapped)
+
+    def _reopen(self, req: OpenRequest) -> None:
+        self.request = req
+        self._open(req)
+
+    @on(OpenFailed)
+    def open_failed(self, msg: OpenFailed) -> None:
+        self.error = msg.message
+        self.exit(2)
+
+    @on(SessionReady)
+    def session_ready(self, msg: SessionReady) -> None:
+        self.session, self.snapshot = msg.session, msg.snapshot
+        self.switch_screen(BenchScreen())
+        for notice in msg.session.notices:
+            self.notify(safe(notice), markup=False, timeout=8)
+        if msg.snapshot.readonly:
+            self.notify(f"read-only: {safe(msg.snapshot.readonly_reason)}", markup=False, severity="warning",
+                        timeout=10)
+
+    # -- actions recorded -------------------------------------------------------------------
+
+    @on(ActionDone)
+    def recorded(self, msg: ActionDone) -> None:
+        self.busy = False
+        self.install_snapshot(msg.change.snapshot)
+        self.notify("\n".join(msg.change.lines) or " ", title=msg.change.title, markup=False, timeout=12)
+
+    @on(ActionFailed)
+    def not_recorded(self, msg: ActionFailed) -> None:
+        self.busy = False
+        self.show_busy("")
+        self.notify(msg.message, title="Not recorded", severity="error", markup=False, timeout=12)
+
+    def install_snapshot(self, snap: Snapshot) -> None:
+        """Make ``snap`` the current state and show it on every screen of the stack."""
+        self.snapshot = snap
+        for screen in self.screen_stack:
+            show = getattr(screen, "show_snapshot", None)
+            if show is not None:
+                show(snap)
+            screen.refresh_bindings()
+
+    def show_busy(self, doing: str) -> None:
+        bench = self.bench()
+        if bench is not None:
+            bench.update_status(doing if self.busy else "")
+        self.screen.refresh_bindings()
+
+    def bench(self) -> BenchScreen | None:
+        return next((s for s in self.screen_stack if isinstance(s, BenchScreen)), None)
+
+    # -- app-wide actions -----------------------------------------------------------------------
+
+    def action_help(self) -> None:
+        from .screens.help import HelpScreen
+        if not isinstance(self.screen, HelpScreen):
+            self.push_screen(HelpScreen())
+
+    async def action_quit(self) -> None:
+        self.exit(0)
+
+    def exit(self, result=None, return_code: int = 0, message=None) -> None:
+        self.close_session()
+        super().exit(result, return_code, message)
+
+    def close_session(self) -> None:
+        """Release the case's lock (every action is already written)."""
+        if self.session is not None:
+            self.session.close()
+
+
+def request_from_args(args: argparse.Namespace) -> OpenRequest:
+    """What ``workbench [open] ...`` asks to open (no path: the bundled demo)."""
+    from workbench.cli import layout_request_from_args, settings_from_args
+    from workbench.demo import demo_path, demo_settings_for
+    path = Path(args.path) if getattr(args, "path", None) else demo_path()
+    if not path.exists():
+        raise WorkbenchError(f"no such file: {path}")
+    if path.is_dir():
+        raise WorkbenchError(f"{path} is a directory, not a data or case file")
+    settings = settings_from_args(args, demo_settings_for(path))
+    case = getattr(args, "case", None)
+    return OpenRequest(path=path, request=layout_request_from_args(args), settings=settings,
+                       author=getattr(args, "author", None), case_path=Path(case) if case else None,
+                       reuse="reuse" if not getattr(args, "path", None) else "ask")
+
+
+def run_app(args: argparse.Namespace) -> int:
+    """Run the workbench full screen; returns the exit status (2 when the file cannot be opened)."""
+    app = WorkbenchApp(request_from_args(args))
+    try:
+        app.run()
+    finally:
+        app.close_session()
+    if app.error:
+        print(f"workbench: error: {app.error}", file=sys.stderr)
+        return 2
+    return int(app.return_code or 0)

@@ -1,0 +1,120 @@
+"""Keypress latency of the bench on a long series, against an empty Textual app (a benchmark, not a test).
+
+``measure_keypress`` runs the workbench headless (``App.run_test``) on a generated dataset of
+``subgroups`` subgroups, presses → (next subgroup) ``presses`` times and times each press until
+the repaint has settled: the key is handled, any worker it started has finished and the screen
+has been composited.  The same round trip is timed on an empty app whose key handler updates
+one label.  The figures are medians in milliseconds; the ratio is what the goal is stated in.
+"""
+from __future__ import annotations
+
+import asyncio
+import statistics
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+
+
+def generated_dataset(subgroups: int, streams: int = 5, seed: int = 7):
+    """In-control normal readings (500 ± 0.5) with a few planted shifts, as an in-memory Dataset."""
+    from workbench.core.model import Dataset, Layout
+    rng = np.random.default_rng(seed)
+    values = np.round(rng.normal(500.0, 0.5, (subgroups, streams)), 2)
+    for start in rng.integers(0, max(subgroups - 20, 1), size=max(1, subgroups // 20_000)):
+        values[start:start + 12] += 0.9
+    labels = np.array([f"S{i + 1}" for i in range(subgroups)])
+    return Dataset(path="generated.csv", sha256="0" * 64, rows=subgroups, size_bytes=0,
+                   layout=Layout("wide", streams=tuple(f"H{j + 1}" for j in range(streams))), labels=labels,
+                   streams=tuple(f"H{j + 1}" for j in range(streams)), values=values)
+
+
+async def _settle(pilot) -> None:
+    """Wait until the key's messages, any worker it started and the repaint are done.
+
+    No idle-waiting sleeps (unlike ``Pilot.press``): the clock sees only the work the key causes.
+    """
+    app = pilot.app
+    for _ in range(100):
+        await pilot._wait_for_screen()
+        if not any(w.is_running for w in app.workers):
+            break
+        await app.workers.wait_for_complete()
+    await pilot._wait_for_screen()
+    app.screen._on_timer_update()
+
+
+async def _press(pilot, key: str) -> None:
+    from textual import events
+    event = events.Key(key, None)
+    event.set_sender(pilot.app)
+    pilot.app._driver.send_message(event)
+    await _settle(pilot)
+
+
+async def _time_presses(app, size: tuple[int, int], presses: int, key: str, ready) -> list[float]:
+    times = []
+    async with app.run_test(size=size) as pilot:
+        for _ in range(200):
+            await _settle(pilot)
+            if ready(app):
+                break
+            await asyncio.sleep(0.05)
+        await _settle(pilot)
+        for _ in range(3):  # warm-up
+            await _press(pilot, key)
+        for _ in range(presses):
+            t = time.perf_counter()
+            await _press(pilot, key)
+            times.append((time.perf_counter() - t) * 1000.0)
+        close = getattr(app, "close_session", None)
+        if close:
+            close()
+    return times
+
+
+def _empty_app():
+    from textual.app import App
+    from textual.widgets import Static
+
+    class Empty(App):
+        BINDINGS = [("right", "step", "Step")]
+
+        def compose(self):
+            yield Static("0", id="n")
+
+        def action_step(self) -> None:
+            w = self.query_one("#n", Static)
+            w.update(str(int(str(w.render())) + 1))
+
+    return Empty()
+
+
+def measure_keypress(subgroups: int = 200_000, presses: int = 20, size: tuple[int, int] = (120, 36)) -> dict:
+    """Median press → repaint time (ms) on the bench with ``subgroups`` subgroups and on an empty app."""
+    from workbench.core.model import Settings
+    from workbench.tui.app import WorkbenchApp
+    from workbench.tui.screens.bench import BenchScreen
+    from workbench.tui.session import OpenRequest
+
+    ds = generated_dataset(subgroups)
+    with tempfile.TemporaryDirectory() as tmp:
+        req = OpenRequest(path=Path(tmp) / "generated.csv", settings=Settings(), dataset=ds,
+                          case_path=Path(tmp) / "generated.case.json", reuse="new")
+        app = WorkbenchApp(req, hide_times=True)
+
+        def ready(a) -> bool:
+            s = a.screen
+            return isinstance(s, BenchScreen) and s.snap is not None and s.query_one("#location").picture is not None
+
+        app_times = asyncio.run(_time_presses(app, size, presses, "right", ready))
+    empty_times = asyncio.run(_time_presses(_empty_app(), size, presses, "right", lambda a: True))
+    app_ms, empty_ms = statistics.median(app_times), statistics.median(empty_times)
+    return {"app_ms": round(app_ms, 3), "empty_ms": round(empty_ms, 3),
+            "ratio": round(app_ms / empty_ms, 3) if empty_ms > 0 else float("inf"),
+            "subgroups": subgroups, "presses": presses}
+
+
+if __name__ == "__main__":  # pragma: no cover - manual use
+    print(measure_keypress())

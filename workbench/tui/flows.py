@@ -1,0 +1,147 @@
+"""The app's user flows: a dialog, then one worker that records the action in the case.
+
+Each flow asks (typed dialogs that end with ``dismiss(result)``), then hands a function of the
+:class:`~workbench.tui.session.Session` to ``act``, which runs it in a thread worker; the
+worker posts ActionDone / ActionFailed and the handler installs the new snapshot.
+"""
+from __future__ import annotations
+
+from typing import Callable
+
+from textual import work
+
+from workbench.core.model import Exclusion, Settings
+
+from .dialogs.choice import ChoiceDialog
+from .dialogs.exclude import ExcludeChoice, ExcludeDialog
+from .dialogs.reason import ReasonDialog
+from .dialogs.setup import SetupDialog, SetupResult
+from .messages import ActionDone, ActionFailed
+from .session import Change, Session
+from .view import STATE_WORDS, safe
+
+
+class Flows:
+    """Mixed into the App: ``self.snapshot``, ``self.session``, ``self.busy`` live there."""
+
+    # -- running an action ------------------------------------------------------------------
+
+    def act(self, fn: Callable[[Session], Change], doing: str = "saving") -> None:
+        if self.busy or self.session is None:
+            self.notify("Still saving the previous action; try again in a moment.", severity="warning")
+            return
+        self.busy = True
+        self.show_busy(doing)
+        self._act(fn)
+
+    @work(thread=True, group="write")
+    def _act(self, fn: Callable[[Session], Change]) -> None:
+        try:
+            change = fn(self.session)
+        except Exception as exc:  # one line to the user; the case is unchanged
+            self.post_message(ActionFailed(str(exc) or type(exc).__name__))
+            return
+        self.post_message(ActionDone(change))
+
+    # -- the flows ----------------------------------------------------------------------------
+
+    def exclude_flow(self, position: int, stream: str | None = None) -> None:
+        snap = self.snapshot
+        ds = snap.dataset
+        label = str(ds.labels[position])
+        row = snap.marks.row_at(position)
+        key = words = None
+        if row is not None and snap.marks.rows[row].state == "open":
+            key, words = snap.marks.rows[row].key, snap.marks.rows[row].words
+        done = set()
+        if snap.analysis.excluded_cells is not None:
+            done = {s for j, s in enumerate(ds.streams) if snap.analysis.excluded_cells[position, j]}
+        streams = ds.streams if ds.values is not None else ()
+
+        def confirmed(choice: ExcludeChoice | None) -> None:
+            if choice is not None:
+                self.act(lambda s: s.exclude(choice.target, choice.reason, choice.cause, key))
+
+        self.push_screen(ExcludeDialog(label, streams, snap.state.causes, stream, words, frozenset(done)), confirmed)
+
+    def restore_flow(self, position: int, stream: str | None = None) -> None:
+        snap = self.snapshot
+        label = str(snap.dataset.labels[position])
+        info = snap.state.exclusion_info
+        targets = [Exclusion(label)] if label in info else []
+        targets += [Exclusion(label, s) for s in snap.dataset.streams if f"{label}:{s}" in info]
+        if not targets:
+            self.notify("Nothing is excluded in this subgroup.", timeout=3)
+            return
+        chosen = next((t for t in targets if stream is not None and t.stream == stream), None)
+        if chosen is None and len(targets) == 1:
+            chosen = targets[0]
+        if chosen is not None:
+            self._restore_reason(chosen)
+            return
+        choices = [(str(i), f"reading {safe(t.stream)}" if t.stream else "the whole subgroup")
+                   for i, t in enumerate(targets)]
+        self.push_screen(ChoiceDialog("Restore which?", f"Several exclusions in subgroup {safe(label)}.", choices),
+                         lambda c: self._restore_reason(targets[int(c)]) if c is not None and c.isdigit() else None)
+
+    def _restore_reason(self, target: Exclusion) -> None:
+        why = self.snapshot.state.exclusion_info.get(target.key)
+        prompt = "Why does it belong in the limits after all?"
+        if why is not None:
+            prompt += f"\nIt was excluded because: {safe(why.reason)}"
+        self.push_screen(ReasonDialog(f"Restore {safe(target.key)}", prompt, "Restore"),
+                         lambda r: self.act(lambda s: s.restore(target, r)) if r else None)
+
+    def mark_flow(self, key: str | None, state: str) -> None:
+        if key is None:
+            self.notify("No signal at the cursor: step to one with n.", timeout=3)
+            return
+        prompts = {"explained": ("What was the cause? The points stay in the limits.", True),
+                   "no-cause-found": ("What was checked? (optional)", False),
+                   "open": ("Why reopen it? (optional)", False)}
+        prompt, required = prompts[state]
+        title = f"Mark {safe(key)} {STATE_WORDS.get(state, state)}"
+        self.push_screen(ReasonDialog(title, prompt, "Mark", required=required, needed="The cause is required"),
+                         lambda r: self.act(lambda s: s.mark(key, state, r)) if r is not None else None)
+
+    def note_flow(self, target: str) -> None:
+        self.push_screen(ReasonDialog(f"Note on subgroup {safe(target)}", "The note:", "Add note",
+                                      needed="A note is required"),
+                         lambda r: self.act(lambda s: s.note(r, target, "subgroup")) if r else None)
+
+    def freeze_flow(self) -> None:
+        snap = self.snapshot
+        if snap.state.frozen is not None:
+            self.push_screen(ReasonDialog("Unfreeze the limits", "Why go back to trial (Phase I) limits?", "Unfreeze"),
+                             lambda r: self.act(lambda s: s.unfreeze(r)) if r else None)
+            return
+        msg = (f"Fix the current limits (from {snap.dataset.m:,} subgroups) as Phase I limits? Subgroups "
+               "added to the data later are judged against them (Phase II).")
+        self.push_screen(ChoiceDialog("Freeze the limits", msg, [("freeze", "Freeze"), ("cancel", "Cancel")]),
+                         lambda c: self.act(lambda s: s.freeze()) if c == "freeze" else None)
+
+    def setup_flow(self) -> None:
+        snap = self.snapshot
+
+        def applied(result: SetupResult | None) -> None:
+            if result is None:
+                return
+            new_author = result.author != snap.author
+            if result.settings == snap.state.settings and not new_author:
+                self.notify("The setup did not change.", timeout=3)
+                return
+
+            def run(s: Session) -> Change:
+                if new_author:
+                    s.set_author(result.author)
+                if result.settings != s.case.state.settings:
+                    return s.change_settings(result.settings)
+                return Change(s.snapshot(), "Author set", (f"actions are now recorded as {safe(result.author)}",))
+
+            self.act(run)
+
+        self.push_screen(SetupDialog(snap.state.settings, snap.author, snap.analysis.chart), applied)
+
+    def settings_flow(self, settings: Settings, words: str) -> None:
+        """Record a settings change without a dialog (e.g. the fit view's method switch)."""
+        self.act(lambda s: s.change_settings(settings), f"setting {words}")

@@ -1,0 +1,68 @@
+"""Help: every key of every screen, with what it does."""
+from __future__ import annotations
+
+from rich.text import Text
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Vertical, VerticalScroll
+from textual.screen import ModalScreen
+from textual.widgets import Static
+
+from ..plotting import COLOUR, GLYPH, rgb
+
+KEY_NAMES = {"right": "→", "left": "←", "up": "↑", "down": "↓", "enter": "enter", "escape": "esc",
+             "plus": "+", "equals_sign": "=", "minus": "-", "less_than_sign": "<", "greater_than_sign": ">",
+             "question_mark": "?", "pageup": "PgUp", "pagedown": "PgDn", "home": "Home", "end": "End"}
+
+
+def key_text(keys: str) -> str:
+    return " / ".join(KEY_NAMES.get(k.strip(), k.strip()) for k in keys.split(","))
+
+
+def binding_groups() -> list[tuple[str, list[Binding]]]:
+    """(screen title, bindings) for every screen of the workbench."""
+    from ..app import WorkbenchApp
+    from .bench import BenchScreen
+    from .breakdown import BreakdownScreen
+    from .fit import FitScreen
+    from .trail import TrailScreen
+    groups = [("Bench", BenchScreen.BINDINGS), ("Breakdown", BreakdownScreen.BINDINGS), ("Fit", FitScreen.BINDINGS),
+              ("Trail", TrailScreen.BINDINGS), ("Everywhere", WorkbenchApp.BINDINGS),
+              ("Dialogs", [Binding("escape", "cancel", "Cancel the dialog", id="dialog-cancel"),
+                           Binding("enter", "confirm", "Confirm (in a text field)", id="dialog-confirm"),
+                           Binding("ctrl+s", "apply", "Apply the setup", id="dialog-apply"),
+                           Binding("tab", "focus_next", "Next field", id="dialog-next")])]
+    return [(title, [b for b in bindings if isinstance(b, Binding)]) for title, bindings in groups]
+
+
+def help_text() -> Text:
+    t = Text()
+    for title, bindings in binding_groups():
+        t.append(f"{title}\n", style="bold underline")
+        for b in bindings:
+            t.append(f"  {key_text(b.key):<16}", style="bold")
+            t.append(f"{b.description}\n")
+        t.append("\n")
+    t.append("Glyphs\n", style="bold underline")
+    for cls, words in ((1, "point in an open signal"), (2, "point in a signal marked explained or no cause found"),
+                       (3, "point excluded from the limits"), (0, "point in control")):
+        t.append(f"  {GLYPH[cls]}  ", style=f"bold {rgb(COLOUR[cls])}")
+        t.append(words + "\n")
+    t.append("  the reversed column is the cursor; a vertical line marks the start of Phase II (frozen limits)\n")
+    return t
+
+
+class HelpScreen(ModalScreen[None]):
+    """Lists every key; escape or ? closes it."""
+
+    BINDINGS = [Binding("escape,question_mark,q", "close", "Close help", id="help-close")]
+
+    def compose(self) -> ComposeResult:
+        with Vertical(classes="dialog wide-dialog", id="help-box"):
+            yield Static(Text("Keys — every action is also in the command palette (ctrl+p)", style="bold"),
+                         classes="dialog-title")
+            with VerticalScroll():
+                yield Static(help_text(), id="help-text")
+
+    def action_close(self) -> None:
+        self.dismiss(None)
