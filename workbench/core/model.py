@@ -403,9 +403,12 @@ class StreamRow:
     role: str
     """"max", "min", "max+min" or ""."""
     range_share: float
-    """|reading - subgroup mean of the others|... share of the range this stream accounts for (0-1)."""
+    """Share of the subgroup range that disappears when this reading is left out: (R - R_without)/R."""
     excluded: bool
     """The reading itself is excluded."""
+    gap_z: float = float("nan")
+    """Reading minus the mean of the other streams in the subgroup, in within-subgroup sigmas
+    (sigma_within · sqrt(1 + 1/(k-1))); NaN when it cannot be formed."""
 
 
 @dataclass(frozen=True)

@@ -101,6 +101,8 @@ def breakdown(a: Analysis, position: int) -> Breakdown:
     """Per-stream view of the subgroup at ``position``."""
     ds = a.dataset
     label = str(ds.labels[position])
+    if ds.counts is not None:
+        return _count_breakdown(a, position, label)
     if ds.values is None:
         return Breakdown(position, label, (), float(a.location.values[position]), float("nan"), None,
                          "summary data hold no readings per stream")
@@ -112,42 +114,94 @@ def breakdown(a: Analysis, position: int) -> Breakdown:
     mean, sd, _n = _history(a)
     sub_mean = float(vals.mean()) if vals.size else float("nan")
     rng = float(vals.max() - vals.min()) if vals.size >= 2 else float("nan")
+    sw = a.sigma_within if np.isfinite(a.sigma_within) and a.sigma_within > 0 else float("nan")
     rows = []
     for j, name in enumerate(ds.streams):
         x = float(row[j])
         dev = x - sub_mean
         with np.errstate(invalid="ignore", divide="ignore"):
             z = (x - mean[j]) / sd[j] if sd[j] > 0 else float("nan")
-        role, share = "", 0.0
+        role, share, gap_z = "", 0.0, float("nan")
+        others = np.delete(row, j)[np.delete(use, j)]
+        if use[j] and others.size >= 1 and np.isfinite(sw):
+            gap_z = (x - float(others.mean())) / (sw * np.sqrt(1.0 + 1.0 / others.size))
         if use[j] and vals.size >= 2 and rng > 0:
-            others = np.delete(row, j)[np.delete(use, j)]
             is_max, is_min = x == vals.max(), x == vals.min()
             role = "max+min" if is_max and is_min else "max" if is_max else "min" if is_min else ""
             r_without = float(others.max() - others.min()) if others.size >= 2 else 0.0
             share = (rng - r_without) / rng
-        rows.append(StreamRow(name, x, dev, float(mean[j]), float(sd[j]), float(z), role, share, bool(ex_row[j])))
-    driver, verdict = _verdict(rows, a, position)
+        rows.append(StreamRow(name, x, dev, float(mean[j]), float(sd[j]), float(z), role, share,
+                              bool(ex_row[j]), float(gap_z)))
+    driver, verdict = _verdict(rows)
     return Breakdown(position, label, tuple(rows), sub_mean, rng, driver, verdict)
 
 
-def _verdict(rows: list[StreamRow], a: Analysis, position: int) -> tuple[str | None, str]:
-    live = [r for r in rows if np.isfinite(r.reading) and not r.excluded and np.isfinite(r.z)]
+GAP_NOTABLE = 2.5
+"""|gap_z| (reading against the other streams, in within sigmas) above which a stream drove the subgroup."""
+COMMON_NOTABLE = 2.5
+"""|mean z|·√k above which the streams are said to have moved together."""
+
+
+def _verdict(rows: list[StreamRow]) -> tuple[str | None, str]:
+    """Plain-words verdict: one stream out of line with the others, all moving together, or neither."""
+    live = [r for r in rows if np.isfinite(r.reading) and not r.excluded]
     if not live:
         return None, "no readings to compare in this subgroup"
+    with_gap = [r for r in live if np.isfinite(r.gap_z)]
+    top = max(with_gap, key=lambda r: abs(r.gap_z)) if with_gap else None
+    if top is not None and abs(top.gap_z) >= GAP_NOTABLE:
+        side = "above" if top.gap_z > 0 else "below"
+        text = f"stream {top.stream} read {abs(top.gap_z):.1f}σ {side} the other streams"
+        if np.isfinite(top.z):
+            text += f" ({top.z:+.1f}σ against its own history)"
+        if top.role in ("max", "min", "max+min"):
+            what = {"max": "the subgroup maximum", "min": "the subgroup minimum", "max+min": "both extremes"}[top.role]
+            text += f" and set {what} — {100 * top.range_share:.0f}% of the range"
+        return top.stream, text
+    zs = np.array([r.z for r in live if np.isfinite(r.z)])
+    if zs.size >= 2 and abs(zs.mean()) * np.sqrt(zs.size) >= COMMON_NOTABLE:
+        side = "above" if zs.mean() > 0 else "below"
+        return None, (f"all {zs.size} streams moved together, on average {abs(zs.mean()):.1f}σ {side} their own "
+                      "history, and no stream stands out from the others: a common cause (material, setting, "
+                      "environment) is more likely than one stream")
+    if top is None:
+        return None, "no single stream stands out"
+    return None, (f"no single stream stands out (largest: {top.stream} at {top.gap_z:+.1f}σ against the other "
+                  "streams)")
+
+
+def _count_breakdown(a: Analysis, position: int, label: str) -> Breakdown:
+    """Per-stream view of one subgroup of count data: each stream's rate against its own history.
+
+    The rate is count/size (or the count when there are no sizes); z uses the binomial
+    (p, np) or Poisson (c, u) standard error of the stream's own rate.
+    """
+    ds = a.dataset
+    counts = ds.counts
+    sizes = ds.sizes if ds.sizes is not None else np.ones_like(counts)
+    used = ~a.excluded_cells
+    tot_c = np.where(used, counts, 0.0).sum(axis=0)
+    tot_n = np.where(used, sizes, 0.0).sum(axis=0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        hist = tot_c / tot_n
+        rates = counts[position] / sizes[position]
+        binomial = a.chart in ("p", "np")
+        var = hist * (1 - hist) / sizes[position] if binomial else hist / sizes[position]
+        z = (rates - hist) / np.sqrt(var)
+    sub_rate = float(np.nansum(counts[position]) / np.nansum(sizes[position]))
+    rows = []
+    for j, name in enumerate(ds.streams):
+        rows.append(StreamRow(name, float(rates[j]), float(rates[j] - sub_rate), float(hist[j]),
+                              float(np.sqrt(var[j])), float(z[j]), "", 0.0, bool(a.excluded_cells[position, j]),
+                              float(z[j])))
+    live = [r for r in rows if np.isfinite(r.z) and not r.excluded]
+    if not live:
+        return Breakdown(position, label, tuple(rows), sub_rate, float("nan"), None, "no counts in this subgroup")
     top = max(live, key=lambda r: abs(r.z))
-    zs = np.array([r.z for r in live])
-    if len(live) >= 3 and (np.all(zs > 1) or np.all(zs < -1)):
-        side = "above" if zs[0] > 0 else "below"
-        return None, (f"all {len(live)} streams read {side} their own history (z {zs.min():+.1f} to {zs.max():+.1f}): "
-                      "the subgroup moved as a whole, which points to a common cause (material, setting, "
-                      "environment) rather than one stream")
-    if abs(top.z) >= Z_NOTABLE or top.range_share >= 0.5:
+    if abs(top.z) >= GAP_NOTABLE:
         side = "above" if top.z > 0 else "below"
-        parts = [f"stream {top.stream} read {abs(top.z):.1f}σ {side} its own history"]
-        if top.role:
-            what = {"max": "the subgroup maximum", "min": "the subgroup minimum",
-                    "max+min": "both extremes"}[top.role]
-            parts.append(f"and set {what} — {100 * top.range_share:.0f}% of the range")
-        return top.stream, " ".join(parts)
-    return None, (f"no single stream stands out (largest: {top.stream} at {top.z:+.1f}σ against its own "
-                  "history)")
+        verdict = (f"stream {top.stream} ran at {top.reading:.4g}, {abs(top.z):.1f} standard errors {side} its own "
+                   f"history ({top.stream_mean:.4g})")
+        return Breakdown(position, label, tuple(rows), sub_rate, float("nan"), top.stream, verdict)
+    return Breakdown(position, label, tuple(rows), sub_rate, float("nan"), None,
+                     f"no single stream stands out (largest: {top.stream} at {top.z:+.1f} standard errors)")

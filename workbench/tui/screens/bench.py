@@ -23,6 +23,8 @@ from ..window import Window, follow, window_at
 
 WRITES = {"exclude", "restore", "note", "explain", "no_cause", "reopen", "freeze", "setup"}
 MIN_WINDOW = 8
+BINDINGS_DELAY = 0.15
+"""Seconds the cursor rests before the footer's greyed-out keys are brought up to date."""
 
 
 class BenchScreen(Screen):
@@ -64,6 +66,7 @@ class BenchScreen(Screen):
         self.window: Window | None = None
         self.token = 0
         self._enabled: tuple = ()
+        self._bindings_timer = None
 
     def compose(self) -> ComposeResult:
         with Horizontal(id="bench-body"):
@@ -182,6 +185,20 @@ class BenchScreen(Screen):
         self.query_one(SignalList).select(row)
         self.query_one(SubgroupPanel).show(snap, p)
         self.update_status()
+        self._schedule_bindings()
+
+    def _schedule_bindings(self) -> None:
+        """Grey out what no longer applies once the cursor rests (a footer update costs a layout).
+
+        Keys are checked against ``check_action`` when pressed, so a key that does not apply
+        never runs; only the footer's greying waits for the cursor to settle.
+        """
+        if self._bindings_timer is not None:
+            self._bindings_timer.stop()
+        self._bindings_timer = self.set_timer(BINDINGS_DELAY, self._refresh_enabled)
+
+    def _refresh_enabled(self) -> None:
+        self._bindings_timer = None
         enabled = tuple(self.check_action(a, ()) for a in sorted(WRITES | {"next_signal", "prev_signal"}))
         if enabled != self._enabled:
             self._enabled = enabled

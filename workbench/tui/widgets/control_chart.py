@@ -38,9 +38,11 @@ class ControlChart(PlotextPlot):
         self.cursor: int | None = None
         self.codes: np.ndarray | None = None
         self.placeholder = "drawing…"
+        self._base = Style()
+        self._styled: tuple[Strip, ...] | None = None
 
     def show(self, picture: Picture | None, codes: np.ndarray | None = None) -> None:
-        self.picture, self.codes = picture, codes
+        self.picture, self.codes, self._styled = picture, codes, None
         self.refresh()
 
     def set_cursor(self, position: int | None) -> None:
@@ -62,24 +64,38 @@ class ControlChart(PlotextPlot):
             return None
         return column_of(self.cursor, pic.window, pic.cols)
 
-    def render_line(self, y: int) -> Strip:
-        width = self.size.width
-        pic = self.picture
+    def render_lines(self, crop):
         base = self.rich_style
+        if base != self._base:
+            self._base, self._styled = base, None
+        return super().render_lines(crop)
+
+    def _lines(self) -> tuple[Strip, ...]:
+        """The picture's strips with the widget's base style applied (once per picture and style)."""
+        if self._styled is None and self.picture is not None:
+            width = self.size.width
+            self._styled = tuple(s.apply_style(self._base).crop_extend(0, width, self._base)
+                                 for s in self.picture.strips)
+        return self._styled or ()
+
+    def render_line(self, y: int) -> Strip:
+        pic = self.picture
         if pic is None:
-            return _text_strip(self.placeholder, width, base) if y == 0 else Strip.blank(width, base)
-        if y >= len(pic.strips):
-            return Strip.blank(width, base)
-        strip = pic.strips[y]
+            width = self.size.width
+            return _text_strip(self.placeholder, width, self._base) if y == 0 else Strip.blank(width, self._base)
+        lines = self._lines()
+        if y >= len(lines):
+            return Strip.blank(self.size.width, self._base)
+        strip = lines[y]
         col = self.cursor_column()
         if col is not None and pic.top <= y < pic.top + pic.rows:
             x = pic.left + col
-            left, mid, right = strip.divide([x, x + 1, strip.cell_length])[:3]
-            strip = Strip.join([left, mid.apply_style(CURSOR), right])
-        strip = strip.apply_style(base)
-        if strip.cell_length != width:
-            strip = strip.crop_extend(0, width, base)
+            left, mid, right = strip.divide((x, x + 1, strip.cell_length))[:3]
+            strip = Strip.join((left, mid.apply_style(CURSOR), right))
         return strip
+
+    def on_resize(self) -> None:
+        self._styled = None
 
     def on_click(self, event: events.Click) -> None:
         pic = self.picture

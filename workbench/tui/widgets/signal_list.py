@@ -43,10 +43,16 @@ class SignalList(ScrollView, can_focus=False):
     def select(self, index: int | None) -> None:
         if index == self.selected:
             return
-        self.selected = index
+        old, self.selected = self.selected, index
+        before = self.scroll_offset.y
         if index is not None:
             self.scroll_to_region(Region(0, LINES * index, 1, LINES), animate=False, force=True, immediate=True)
-        self.refresh()
+        if self.scroll_offset.y != before:
+            self.refresh()
+            return
+        for i in (old, index):
+            if i is not None:
+                self.refresh_lines(LINES * i, LINES)
 
     def line_parts(self, row: SignalRow, part: int) -> list[tuple[str, Style | None]]:
         """The segments of line ``part`` (0: what and where, 1: the rule in words) of one row."""

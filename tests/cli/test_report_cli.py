@@ -1,0 +1,110 @@
+"""The headless report: formats, exit codes and one-line errors."""
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from workbench.cli import main
+
+DEMO = Path(__file__).resolve().parents[2] / "demo_data"
+
+
+def run(capsys, *argv):
+    try:
+        code = main(list(argv))
+    except SystemExit as e:
+        code = e.code
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def _no_nan(text):
+    def bad(c):
+        raise AssertionError(f"JSON holds {c}")
+    return json.loads(text, parse_constant=bad)
+
+
+def test_json_report_schema(capsys):
+    code, out, err = run(capsys, "report", str(DEMO / "filler_line3.csv"), "--format", "json")
+    assert code == 0, err
+    r = _no_nan(out)
+    assert r["schema"] == "workbench.report/1"
+    assert set(r["source"]) >= {"path", "sha256", "rows"} and r["source"]["rows"] == 144
+    assert r["chart"] == "xbar-r" and r["subgroups"] == 144 and r["streams"][0] == "H1"
+    assert r["sigma"]["method"] == "rbar/d2" and r["sigma"]["within"] > 0
+    assert [c["name"] for c in r["charts"]] == ["xbar", "r"]
+    assert set(r["flags"]) == {"xbar", "r"} and "zone-a" in r["flags"]["xbar"]
+    s = r["signals"][0]
+    assert {"chart", "rule", "first", "last", "points", "subgroups"} <= set(s)
+    assert len(s["subgroups"]) == len(s["points"])
+    assert r["capability"] is not None  # the demo states its specification
+    assert r["layout"]["kind"] == "wide"
+
+
+def test_text_report_prints_the_detected_mapping(capsys):
+    code, out, _ = run(capsys, "report", str(DEMO / "filler_line3_long.csv"))
+    assert code == 0
+    assert "mapping   long:" in out and "(detected)" in out
+
+
+def test_markdown_report(capsys):
+    code, out, _ = run(capsys, "report", str(DEMO / "stable_caps.csv"), "--format", "markdown")
+    assert code == 0 and out.startswith("# Control chart review") and "## Signals (0)" in out
+
+
+def test_fail_on_signal_exit_codes(capsys):
+    assert run(capsys, "report", str(DEMO / "filler_line3.csv"), "--fail-on-signal")[0] == 1
+    assert run(capsys, "report", str(DEMO / "stable_caps.csv"), "--fail-on-signal")[0] == 0
+
+
+def test_exclude_option(capsys):
+    args = ["report", str(DEMO / "filler_line3.csv"), "--format", "json"]
+    _, before, _ = run(capsys, *args)
+    code, after, _ = run(capsys, *args, "--exclude", "2026-03-03 15:30:H2=digit slip")
+    assert code == 0
+    b, a = json.loads(before), json.loads(after)
+    assert a["excluded"] == [{"subgroup": "2026-03-03 15:30", "stream": "H2", "position": 134}]
+    assert a["charts"][1]["ucl"] < b["charts"][1]["ucl"]
+    code, _, err = run(capsys, *args, "--exclude", "2026-03-03 15:30:H2")
+    assert code == 2 and "reason is required" in err
+
+
+@pytest.mark.parametrize("content,needle", [
+    ("", "empty"),
+    ("a,b\n", "header"),
+    ("t,x,y\n1,2,3\n2,abc,4\n", ":3:x"),
+])
+def test_bad_files_give_one_line_and_exit_2(capsys, tmp_path, content, needle):
+    f = tmp_path / "bad.csv"
+    f.write_text(content)
+    code, out, err = run(capsys, "report", str(f))
+    assert code == 2 and out == ""
+    assert len(err.strip().splitlines()) == 1 and needle in err and "Traceback" not in err
+
+
+def test_missing_path_and_directory(capsys, tmp_path):
+    for p in (tmp_path / "nope.csv", tmp_path):
+        code, _, err = run(capsys, "report", str(p))
+        assert code == 2 and len(err.strip().splitlines()) == 1
+
+
+def test_override_naming_a_missing_column(capsys):
+    code, _, err = run(capsys, "report", str(DEMO / "stable_caps.csv"), "--subgroup", "nope")
+    assert code == 2 and "nope" in err
+
+
+def test_bad_option_value_is_one_line(capsys):
+    code, _, err = run(capsys, "report", str(DEMO / "stable_caps.csv"), "--lsl", "abc")
+    assert code == 2 and len(err.strip().splitlines()) == 1
+    code, _, err = run(capsys, "report", str(DEMO / "stable_caps.csv"), "--lsl", "3", "--usl", "1")
+    assert code == 2 and len(err.strip().splitlines()) == 1
+
+
+def test_module_entry_point_no_traceback(tmp_path):
+    bad = tmp_path / "x.csv"
+    bad.write_bytes(b"t,x\n1,\xff\xfe\x00\n")
+    r = subprocess.run([sys.executable, "-m", "workbench", "report", str(bad)], capture_output=True, text=True,
+                       timeout=120)
+    assert r.returncode in (0, 2) and "Traceback" not in r.stderr
