@@ -47,8 +47,6 @@ CASES = [
     ("summary n empty", b"sample,n,mean,sd\n1,,10,1\n", R(), r":2:n: empty subgroup size$"),
     ("summary range negative", b"sample,n,mean,range\n1,5,10,-1\n", R(), r":2:range: range cannot be negative, got -1$"),
     ("summary without columns", b"a,b\n1,2\n", R(kind="summary"), r": the summary layout needs columns named n"),
-    ("count above size", b"batch,line,inspected,rejected\nB1,L1,100,3\nB1,L2,90,120\n", R(),
-     r":3:rejected: count 120 is larger than the sample size 90$"),
     ("negative count", b"batch,inspected,rejected\nB1,100,-1\n", R(), r":2:rejected: negative count -1$"),
     ("fractional count", b"batch,inspected,rejected\nB1,100,1.5\n", R(), r":2:rejected: count is not a whole number: 1.5$"),
     ("zero size", b"batch,inspected,rejected\nB1,0,0\n", R(), r":2:inspected: sample size must be positive, got 0$"),
@@ -170,3 +168,15 @@ def test_junk_tables_give_consistent_datasets(tmp_path, data):
         assert len(ds.times) == ds.m and (ds.times[1:] >= ds.times[:-1]).all()
     assert ds.sha256 == __import__("hashlib").sha256((tmp_path / "junk.csv").read_bytes()).hexdigest()
     assert ds.size_bytes == os.path.getsize(tmp_path / "junk.csv")
+
+
+def test_count_above_size_is_refused_by_p_charts_but_allowed_for_u(tmp_path):
+    # defectives cannot outnumber the units inspected (p, np); defects can (u) [definition]
+    from workbench.core.analysis import analyse
+    from workbench.core.model import Settings
+    f = tmp_path / "counts.csv"
+    f.write_bytes(b"batch,line,inspected,rejected\nB1,L1,100,3\nB1,L2,90,120\nB2,L1,100,4\nB2,L2,90,5\n")
+    ds = load(f)
+    with pytest.raises(WorkbenchError, match=r":3:rejected: count 120 is larger than the sample size 90 \(a p chart"):
+        analyse(ds, Settings(chart="p"))
+    assert analyse(ds, Settings(chart="u")).chart == "u"

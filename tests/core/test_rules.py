@@ -7,6 +7,7 @@ from scipy import stats
 
 from workbench.core import rules as R
 from workbench.core.model import WorkbenchError
+from workbench.core.signals import group_firings
 
 
 def fires(rule, x, same_side=8, lcl=-3.0, ucl=3.0, excluded=None):
@@ -84,10 +85,21 @@ def test_grouping_adjacent_firings_into_one_signal():
     rs = R.RuleSet("same-side", ("same-side",), 8)
     n = x.size
     f = R.evaluate(x, np.zeros(n), np.ones(n), np.full(n, -3.0), np.full(n, 3.0), np.zeros(n, bool), rs)
-    groups = R.group_firings(f["same-side"], 8)
-    assert len(groups) == 1
-    points, fired = groups[0]
-    assert points.tolist() == list(range(12)) and fired.tolist() == [7, 8, 9, 10, 11]
+    fr = f["same-side"]
+    g = group_firings("i", "same-side", "", np.searchsorted(fr.index, fr.fired), fr.index, fr.members, 8)
+    assert g.first.tolist() == [0] and g.last.tolist() == [11]
+    assert g.points.tolist() == list(range(12)) and g.fired.tolist() == [7, 8, 9, 10, 11]
+
+
+def test_grouping_keeps_separate_patterns_apart_and_members_only():
+    # zone-a firings at 3 and 9 are far apart: two signals, each made of its zone-A points only
+    x = np.array([0, 2.5, 0, 2.1, 0, 0, 0, -2.2, -2.4, 0, 0], float)
+    rs = R.RuleSet("zone-a", ("zone-a",), 8)
+    n = x.size
+    fr = R.evaluate(x, np.zeros(n), np.ones(n), np.full(n, -3.0), np.full(n, 3.0), np.zeros(n, bool), rs)["zone-a"]
+    g = group_firings("i", "zone-a", "", np.searchsorted(fr.index, fr.fired), fr.index, fr.members, 3)
+    assert g.first.tolist() == [1, 7] and g.last.tolist() == [3, 8]
+    assert g.points.tolist() == [1, 3, 7, 8] and g.point_ptr.tolist() == [0, 2, 4]
 
 
 def test_rule_sets_resolve():

@@ -13,6 +13,7 @@ import numpy as np
 
 from . import charts as C
 from . import rules as R
+from .signals import SignalTable, group_firings
 from .model import (
     ATTRIBUTE_CHARTS, CHART_KINDS, SIGMA_METHOD_LABELS, Analysis, ChartResult, Dataset, Exclusion,
     FrozenLimits, Settings, Signal, WorkbenchError,
@@ -96,13 +97,12 @@ def exclusion_masks(ds: Dataset, exclusions: Iterable[Exclusion]) -> tuple[np.nd
             if ds.is_summary:
                 raise WorkbenchError("summary data hold no single readings: exclude the whole subgroup")
             cells[i, ds.stream_index(ex.stream)] = True
-    if ds.values is not None:
-        present = ~np.isnan(ds.values)
+    rows = np.flatnonzero(cells.any(axis=1)) if cells.any() else np.empty(0, int)
+    if rows.size and ds.values is not None:
         # a subgroup whose every reading is excluded is an excluded subgroup
-        rows = np.flatnonzero(cells.any(axis=1))
-        if rows.size:
-            full = ~(present[rows] & ~cells[rows]).any(axis=1)
-            sub[rows[full]] = True
+        present = ~np.isnan(ds.values[rows])
+        full = ~(present & ~cells[rows]).any(axis=1)
+        sub[rows[full]] = True
     cells |= sub[:, None]
     return sub, cells
 
@@ -114,22 +114,44 @@ def _summary_stats(ds: Dataset) -> C.SubgroupStats:
     return C.SubgroupStats(n=n, mean=ds.summary_mean.astype(float), range=rng.astype(float), sd=sd.astype(float))
 
 
-def _overall_sd(ds: Dataset, used: np.ndarray | None, stats: C.SubgroupStats, use: np.ndarray) -> float:
-    if used is not None:
-        v = used[use]
-        v = v[~np.isnan(v)]
-        return float(np.std(v, ddof=1)) if v.size > 1 else float("nan")
-    # summary data: total sum of squares from the subgroup statistics
-    n, mean = stats.n[use], stats.mean[use]
-    sd = stats.sd[use]
-    if np.isnan(sd).all():
+def _reading_stats(ds: Dataset, cell_only: np.ndarray) -> C.SubgroupStats:
+    """Subgroup statistics with single-reading exclusions left out.
+
+    The statistics of the raw readings are computed once per dataset and cached on it; only the
+    rows with an excluded reading are recomputed, so an exclusion costs O(subgroups), not
+    O(readings).
+    """
+    raw = ds.__dict__.get("_raw_stats")
+    if raw is None:
+        raw = C.subgroup_stats(ds.values)
+        object.__setattr__(ds, "_raw_stats", raw)
+    rows = np.flatnonzero(cell_only.any(axis=1)) if cell_only.any() else np.empty(0, int)
+    if rows.size == 0:
+        return raw
+    part = C.subgroup_stats(np.where(cell_only[rows], np.nan, ds.values[rows]))
+    n, mean, rng, sd = raw.n.copy(), raw.mean.copy(), raw.range.copy(), raw.sd.copy()
+    n[rows], mean[rows], rng[rows], sd[rows] = part.n, part.mean, part.range, part.sd
+    return C.SubgroupStats(n=n, mean=mean, range=rng, sd=sd)
+
+
+def _overall_sd(stats: C.SubgroupStats, use: np.ndarray, ranges_only: bool = False) -> float:
+    """Sample SD of all used readings, from the subgroup statistics.
+
+    Total sum of squares = Σ(nᵢ−1)sᵢ² + Σnᵢ(x̄ᵢ − x̿)², the one-way decomposition; exact for
+    readings, and for summary data with ranges only sᵢ is estimated by Rᵢ/d2(nᵢ).
+    """
+    sel = use & (stats.n > 0)
+    n, mean = stats.n[sel].astype(float), stats.mean[sel]
+    sd = stats.sd[sel]
+    if ranges_only:
         from .constants import d2, table
-        sd = stats.range[use] / table(n, d2)  # ranges only: s estimated by R/d2 (stated in a warning)
+        sd = stats.range[sel] / table(stats.n[sel], d2)
     total = n.sum()
     if total < 2:
         return float("nan")
     gm = np.sum(n * mean) / total
-    ss = np.nansum((n - 1) * sd ** 2) + np.sum(n * (mean - gm) ** 2)
+    within = np.where(n > 1, (n - 1) * np.where(np.isnan(sd), 0.0, sd) ** 2, 0.0)
+    ss = within.sum() + np.sum(n * (mean - gm) ** 2)
     return float(np.sqrt(ss / (total - 1)))
 
 
@@ -171,8 +193,7 @@ def analyse(dataset: Dataset, settings: Settings = Settings(), exclusions: Itera
         if np.any(stats.n <= 0):
             raise WorkbenchError(f"{ds.path}: subgroup sizes must be positive")
     else:
-        used = np.where(ex_cells & ~ex_sub[:, None], np.nan, ds.values)  # reading exclusions leave the statistic
-        stats = C.subgroup_stats(used)
+        stats = _reading_stats(ds, ex_cells & ~ex_sub[:, None])
     sigma_method = resolve_sigma(chart, ds, settings)
     known_mean = settings.known_mean
     individuals = chart == "imr" or (not ds.is_summary and ds.k == 1)
@@ -216,12 +237,12 @@ def analyse(dataset: Dataset, settings: Settings = Settings(), exclusions: Itera
     if ds.is_summary and ds.summary_sd is None:
         warnings.append("summary data with ranges only: the overall sigma uses R/d2 for each subgroup's SD")
 
-    sigma_overall = _overall_sd(ds, used, stats, use)
+    sigma_overall = _overall_sd(stats, use, ranges_only=ds.is_summary and ds.summary_sd is None)
     charts, signals = _apply_rules(ds, base, settings, chart)
     return Analysis(
         dataset=ds, settings=settings, exclusions=excl, chart=chart, sigma_method=sigma_method,
         sigma_within=float(sigma), sigma_overall=sigma_overall, center=float(center), n=stats.n,
-        charts=tuple(charts), signals=tuple(signals), excluded_subgroups=ex_sub,
+        charts=tuple(charts), signals=signals, excluded_subgroups=ex_sub,
         excluded_cells=None if ds.is_summary else ex_cells, warnings=tuple(warnings), phase2_start=phase2,
     )
 
@@ -254,6 +275,9 @@ def _small_shift(chart: str, loc: ChartResult, center: float, settings: Settings
 
 def _analyse_attribute(ds, settings, excl, chart, ex_sub, ex_cells, phase2, warnings) -> Analysis:
     from . import attribute
+    if chart in ("p", "np") and ds.count_over_size:
+        raise WorkbenchError(f"{ds.count_over_size} (a {chart} chart counts defectives, which cannot outnumber "
+                             "the units inspected; for defects use a u chart)")
     counts = np.where(ex_cells & ~ex_sub[:, None], 0.0, ds.counts)
     counts = np.nansum(counts, axis=1)
     sizes = None
@@ -271,7 +295,7 @@ def _analyse_attribute(ds, settings, excl, chart, ex_sub, ex_cells, phase2, warn
         dataset=ds, settings=settings, exclusions=excl, chart=chart, sigma_method="binomial" if chart in ("p", "np")
         else "poisson", sigma_within=sig, sigma_overall=float("nan"), center=center,
         n=(sizes if sizes is not None else np.ones(ds.m)).astype(float), charts=tuple(charts),
-        signals=tuple(signals), excluded_subgroups=ex_sub, excluded_cells=ex_cells, warnings=tuple(warnings),
+        signals=signals, excluded_subgroups=ex_sub, excluded_cells=ex_cells, warnings=tuple(warnings),
         phase2_start=phase2,
     )
 
@@ -287,10 +311,9 @@ def _apply_rules(ds: Dataset, charts: list[ChartResult], settings: Settings, kin
     loc_rules = R.resolve(location_rules(settings, kind))
     spread_rules = R.resolve(settings.spread_rules)
     out: list[ChartResult] = []
-    signals: list[Signal] = []
-    labels = ds.labels
+    groups = []
     for c in charts:
-        rs = loc_rules if c.role == "location" and kind not in ("ewma", "cusum") else spread_rules
+        rs = loc_rules if c.role == "location" else spread_rules
         if kind in ("ewma", "cusum") and c.role == "location":
             rs = R.resolve("limits-only")  # zone rules do not apply to autocorrelated statistics
         if kind == "cusum" and c.role == "location":
@@ -303,13 +326,9 @@ def _apply_rules(ds: Dataset, charts: list[ChartResult], settings: Settings, kin
                                flags, rs.ids, c.extra))
         for rid, f in firings.items():
             rule = rs.rule(rid)
-            for points, fired in R.group_firings(f, rule.window):
-                first, last = int(points[0]), int(points[-1])
-                signals.append(Signal(
-                    chart=c.name, rule=rid, first=first, last=last, points=tuple(points.tolist()),
-                    fired=tuple(fired.tolist()), key=f"{c.name}/{rid}/{labels[first]}", description=rule.words))
-    signals.sort(key=lambda s: (s.first, s.last, s.chart, s.rule))
-    return out, signals
+            fired_c = np.searchsorted(f.index, f.fired)
+            groups.append(group_firings(c.name, rid, rule.words, fired_c, f.index, f.members, rule.window))
+    return out, SignalTable(groups, ds.labels)
 
 
 def _summarise(a: np.ndarray) -> Any:

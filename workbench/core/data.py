@@ -18,7 +18,8 @@ Layout detection (each rule is skipped when the request gives that part):
    other column so named; used when its cells parse as dates, which then order the rows.
 5. Stream column: the first column named stream, head, spindle, cavity, lane, nozzle,
    station, line, machine, channel or position; else the first text column whose values
-   never repeat within a subgroup.  Key and stream columns are always read as text.
+   never repeat within a subgroup.  Columns named like a key or a stream always count as
+   text (labels), and a key whose cells start with a zero (``007``) keeps that text.
 6. Attribute data: ``--count`` (with ``--size``), or a number column named rejected /
    rejects / defects / defectives / nonconforming together with one named inspected /
    size / n / units; long when the key repeats, else one subgroup a row.
@@ -81,8 +82,8 @@ def load(path: str | os.PathLike, request: LayoutRequest = LayoutRequest()) -> D
         raise WorkbenchError("--size needs --count (the column of counts)")
     table = sniff.read_table(path, lambda names: _text_columns(names, request))
     cols = list(table.frame.columns)
-    named = [request.subgroup, request.stream, request.value, request.time, request.count, request.size, *request.streams]
-    for name in named:
+    r = request
+    for name in (r.subgroup, r.stream, r.value, r.time, r.count, r.size, *r.streams):
         if name is not None and name not in cols:
             raise WorkbenchError(f"{table.path}: no column {name!r} (columns: {', '.join(cols)})")
     layout = detect(table, request)
@@ -99,7 +100,7 @@ def detect(table: Table, req: LayoutRequest) -> Layout:
     """Decide the layout of a table (rules in the module docstring)."""
     cols = list(table.frame.columns)
     norm = {c: _norm(c) for c in cols}
-    auto = not any(v for v in (req.kind, req.subgroup, req.stream, req.value, req.time, req.streams, req.count, req.size))
+    auto = not any((req.kind, req.subgroup, req.stream, req.value, req.time, req.streams, req.count, req.size))
     first = lambda words: next((c for c in cols if norm[c] in words), None)  # noqa: E731
     summary = {"n": first(_N), "mean": first(_MEAN), "range": first(_RANGE), "sd": first(_SD)}
     plain = not (req.count or req.stream or req.value or req.streams)
@@ -325,7 +326,7 @@ class _Builder:
         t = self.t
         return Dataset(path=t.path, sha256=t.sha256, rows=t.rows, size_bytes=t.size_bytes, layout=self.lay,
                        missing=self.missing, skipped_bad=self.bad, notices=tuple(self.notices),
-                       encoding=t.encoding, **parts)
+                       encoding=t.encoding, count_over_size=getattr(self, "count_over_size", None), **parts)
 
     def rowwise(self) -> dict:
         lay = self.lay
@@ -369,8 +370,11 @@ class _Builder:
         s = self.nums(lay.size)
         self.first(have & np.isnan(s), lay.size, lambda i: "empty sample size")
         self.first(have & (s <= 0), lay.size, lambda i: f"sample size must be positive, got {_fmt(s[i])}")
-        self.first(have & (c > s), lay.count,
-                   lambda i: f"count {_fmt(c[i])} is larger than the sample size {_fmt(s[i])}")
+        over = have & (c > s)
+        if over.any():  # defects may outnumber units (u charts); defectives may not — the chart decides
+            i = int(np.argmax(over))
+            self.count_over_size = str(self.fail(i, lay.count, f"count {_fmt(c[i])} is larger than the "
+                                                  f"sample size {_fmt(s[i])}"))
         return c, s
 
     def grouped(self) -> dict:

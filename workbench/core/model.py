@@ -157,6 +157,9 @@ class Dataset:
     notices: tuple[str, ...] = ()
     """Plain-words notices about the load (encoding fallback, re-sorting, skipped cells)."""
     encoding: str = "utf-8"
+    count_over_size: str | None = None
+    """Count data: "file:row:column: ..." of the first count larger than its sample size, or None.
+    Defects (c, u) may outnumber units; p and np charts refuse such data with this message."""
 
     @property
     def m(self) -> int:

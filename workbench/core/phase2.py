@@ -21,7 +21,6 @@ JQT 16(4): the run rules, evaluated as in :mod:`workbench.core.rules`.
 """
 from __future__ import annotations
 
-import bisect
 import dataclasses
 import json
 import time
@@ -36,6 +35,7 @@ from . import rules as R
 from .analysis import _subgroup_warnings, analyse, freeze, location_rules
 from .charts import SubgroupStats
 from .model import Analysis, ChartResult, Dataset, FrozenLimits, Signal, WorkbenchError
+from .signals import Group, SignalTable
 from .tail import Follower, Update, grow
 
 INCREMENTAL_FROM = 500
@@ -78,33 +78,20 @@ def _tail_start(a: Analysis, need: int) -> int:
         span = min(m0, span * 4)
 
 
-@dataclass(frozen=True)
-class _Memo:
-    """What extending an analysis needs that would otherwise cost a pass over all subgroups."""
-
-    last: dict
-    """(chart, rule) -> the signal of that rule with the latest last point."""
-    sizes: tuple[int, int, int] | None
-    """Smallest and largest positive subgroup size and the number of single-reading subgroups."""
-
-
-_memos: "weakref.WeakKeyDictionary[Analysis, _Memo]" = weakref.WeakKeyDictionary()
+_sizes_memo: "weakref.WeakKeyDictionary[Analysis, tuple | None]" = weakref.WeakKeyDictionary()
+"""Analysis -> its subgroup-size summary (see :func:`_sizes`), so extending never scans every size."""
 
 
 def _sizes(n: np.ndarray) -> tuple[int, int, int] | None:
+    """Smallest and largest positive subgroup size and the number of single-reading subgroups."""
     pos = n[n > 0]
     return (int(pos.min()), int(pos.max()), int(np.count_nonzero(n == 1))) if pos.size else None
 
 
-def _memo(a: Analysis) -> _Memo:
-    memo = _memos.get(a)
-    if memo is None:
-        last: dict = {}
-        for sig in a.signals:
-            if (sig.chart, sig.rule) not in last or sig.last > last[sig.chart, sig.rule].last:
-                last[sig.chart, sig.rule] = sig
-        memo = _memos[a] = _Memo(last, _sizes(a.n))
-    return memo
+def _sizes_of(a: Analysis) -> tuple[int, int, int] | None:
+    if a not in _sizes_memo:
+        _sizes_memo[a] = _sizes(a.n)
+    return _sizes_memo[a]
 
 
 def _size_warnings(chart: str, sizes: tuple[int, int, int] | None, dtype) -> list[str]:
@@ -118,10 +105,6 @@ def _size_warnings(chart: str, sizes: tuple[int, int, int] | None, dtype) -> lis
     return out
 
 
-def _order(s: Signal) -> tuple:
-    return s.first, s.last, s.chart, s.rule
-
-
 def _slice(ds: Dataset, start: int) -> Dataset:
     cut = lambda v: None if v is None else v[start:]  # noqa: E731
     return dataclasses.replace(
@@ -130,31 +113,47 @@ def _slice(ds: Dataset, start: int) -> Dataset:
         times=cut(ds.times), extras={})
 
 
-def _groups(chart: str, rid: str, rule: R.Rule, f: R.Firing, new: np.ndarray, prev: Signal | None, s: int,
-            labels: np.ndarray) -> list[Signal]:
-    """Signals holding the new firings ``new`` (tail positions), grouped as ``rules.group_firings`` does;
-    the first joins ``prev`` (the last old signal of this rule) when adjacent or overlapping."""
+def _signal(g: Group, i: int, labels: np.ndarray) -> Signal:
+    pts = g.points[g.point_ptr[i]:g.point_ptr[i + 1]]
+    first = int(pts[0])
+    return Signal(g.chart, g.rule, first, int(pts[-1]), tuple(pts.tolist()),
+                  tuple(g.fired[g.fired_ptr[i]:g.fired_ptr[i + 1]].tolist()), f"{g.chart}/{g.rule}/{labels[first]}",
+                  g.description)
+
+
+def _extend_group(g: Group, rule: R.Rule, f: R.Firing, new: np.ndarray, s: int, labels: np.ndarray) -> Group:
+    """``g`` (one rule's signals on one chart) with the new firings ``new`` (tail positions) grouped in,
+    as ``signals.group_firings`` groups them: the first joins the last old signal when adjacent."""
     idx = f.index
     comp = np.searchsorted(idx, new)
     starts = comp - (rule.window - 1)
     brk = np.ones(comp.size, bool)
     brk[1:] = starts[1:] > comp[:-1] + 1
     heads = np.flatnonzero(brk)
-    out = []
+    keep, pts_new, fired_new = g.first.size, [], []
     for n, (a, b) in enumerate(zip(heads.tolist(), np.r_[heads[1:], comp.size].tolist())):
-        hi, join = int(comp[b - 1]), None
-        if n == 0 and prev is not None and prev.last - s >= 0:
-            c_old = int(np.searchsorted(idx, prev.last - s))
-            if c_old < idx.size and idx[c_old] == prev.last - s and starts[a] <= c_old + 1:
-                join = prev
-        lo = c_old + 1 if join else max(0, int(starts[a]))
+        hi, lo = int(comp[b - 1]), max(0, int(starts[a]))
+        if n == 0 and keep and g.last[-1] - s >= 0:
+            c_old = int(np.searchsorted(idx, g.last[-1] - s))
+            if c_old < idx.size and idx[c_old] == g.last[-1] - s and starts[a] <= c_old + 1:
+                keep -= 1  # the last old signal continues: rebuilt with its old points and the new ones
+                lo = c_old + 1
         seg = np.arange(lo, hi + 1) if f.members is None else lo + np.flatnonzero(f.members[lo:hi + 1])
-        pts, fired = tuple((idx[seg] + s).tolist()), tuple((new[a:b] + s).tolist())
-        if join:
-            out.append(dataclasses.replace(join, last=pts[-1], points=join.points + pts, fired=join.fired + fired))
-        else:
-            out.append(Signal(chart, rid, pts[0], pts[-1], pts, fired, f"{chart}/{rid}/{labels[pts[0]]}", rule.words))
-    return out
+        pts, fired = idx[seg] + s, new[a:b] + s
+        if keep < g.first.size and n == 0:
+            pts = np.concatenate((g.points[g.point_ptr[keep]:g.point_ptr[keep + 1]], pts))
+            fired = np.concatenate((g.fired[g.fired_ptr[keep]:g.fired_ptr[keep + 1]], fired))
+        pts_new.append(pts)
+        fired_new.append(fired)
+    pp, fp = g.point_ptr[keep], g.fired_ptr[keep]
+    cum = lambda parts, base: base + np.cumsum([len(x) for x in parts], dtype=np.int64)  # noqa: E731
+    return Group(g.chart, g.rule, g.description,
+                 np.concatenate((g.first[:keep], [int(x[0]) for x in pts_new])).astype(np.int64),
+                 np.concatenate((g.last[:keep], [int(x[-1]) for x in pts_new])).astype(np.int64),
+                 np.concatenate([g.points[:pp]] + pts_new).astype(np.int64),
+                 np.concatenate((g.point_ptr[:keep + 1], cum(pts_new, pp))),
+                 np.concatenate([g.fired[:fp]] + fired_new).astype(np.int64),
+                 np.concatenate((g.fired_ptr[:keep + 1], cum(fired_new, fp))))
 
 
 def extend(before: Analysis, dataset: Dataset, frozen: FrozenLimits | None = None,
@@ -177,7 +176,8 @@ def extend(before: Analysis, dataset: Dataset, frozen: FrozenLimits | None = Non
         raise WorkbenchError("new subgroups are judged against frozen limits: freeze the limits first")
     if dataset.m == m0:
         return before if dataset is old else dataclasses.replace(before, dataset=dataset)
-    if (incremental is False or (incremental is None and m0 < INCREMENTAL_FROM) or m0 == 0
+    groups = getattr(before.signals, "_groups", None)
+    if (incremental is False or (incremental is None and m0 < INCREMENTAL_FROM) or m0 == 0 or groups is None
             or before.chart in ("ewma", "cusum") or frozen.subgroups > m0):
         return analyse(dataset, before.settings, before.exclusions, frozen)
     loc_rs, spread_rs = R.resolve(location_rules(before.settings, before.chart)), R.resolve(before.settings.spread_rules)
@@ -186,35 +186,26 @@ def extend(before: Analysis, dataset: Dataset, frozen: FrozenLimits | None = Non
     in_tail = set(tail_ds.labels.tolist())
     tail = analyse(tail_ds, before.settings, [e for e in before.exclusions if e.subgroup in in_tail],
                    dataclasses.replace(frozen, subgroups=max(0, frozen.subgroups - s)))
-    k0, memo = m0 - s, _memo(before)
-    last, charts, found = dict(memo.last), [], []
-    signals = list(before.signals)
+    k0, charts, out = m0 - s, [], []
+    it = iter(groups)
     for cb, ct in zip(before.charts, tail.charts):
         rs = loc_rs if ct.role == "location" else spread_rs
         firings = R.evaluate(ct.values, ct.center, ct.sigma, ct.lcl, ct.ucl, ct.excluded, rs)
         flags = {}
         for rid in rs.ids:
-            f = firings[rid]
+            f, g = firings[rid], next(it)
+            if (g.chart, g.rule) != (cb.name, rid):
+                return analyse(dataset, before.settings, before.exclusions, frozen)
             new = f.fired[f.fired >= k0]
             flags[rid] = np.concatenate((cb.flags[rid], new + s)) if new.size else cb.flags[rid]
-            if not new.size:
-                continue
-            prev = last.get((cb.name, rid))
-            for sig in _groups(cb.name, rid, rs.rule(rid), f, new, prev, s, dataset.labels):
-                if prev is not None and sig.key == prev.key:  # the old signal continues: replace it
-                    i = bisect.bisect_left(signals, _order(prev), key=_order)
-                    del signals[i]
-                found.append(sig)
-                last[cb.name, rid] = sig
+            out.append(_extend_group(g, rs.rule(rid), f, new, s, dataset.labels) if new.size else g)
         cat = lambda a, b: grow(a, b[k0:])  # noqa: E731
         charts.append(ChartResult(cb.name, cb.title, cb.role, cat(cb.values, ct.values), cat(cb.center, ct.center),
                                   cat(cb.lcl, ct.lcl), cat(cb.ucl, ct.ucl), cat(cb.sigma, ct.sigma),
                                   cat(cb.excluded, ct.excluded), flags, cb.rules,
                                   {k: cat(v, ct.extra[k]) for k, v in cb.extra.items()}))
-    for sig in found:
-        bisect.insort(signals, sig, key=_order)
     n = grow(before.n, tail.n[k0:])
-    sizes = memo.sizes
+    sizes = _sizes_of(before)
     if tail.n[k0:].size:
         more = _sizes(tail.n[k0:])
         sizes = more if sizes is None else sizes if more is None else (
@@ -227,11 +218,11 @@ def extend(before: Analysis, dataset: Dataset, frozen: FrozenLimits | None = Non
     after = Analysis(
         dataset=dataset, settings=before.settings, exclusions=before.exclusions, chart=before.chart,
         sigma_method=before.sigma_method, sigma_within=before.sigma_within, sigma_overall=before.sigma_overall,
-        center=before.center, n=n, charts=tuple(charts), signals=tuple(signals),
+        center=before.center, n=n, charts=tuple(charts), signals=SignalTable(out, dataset.labels),
         excluded_subgroups=grow(before.excluded_subgroups, tail.excluded_subgroups[k0:]),
         excluded_cells=cells, warnings=tuple(warnings),
         phase2_start=frozen.subgroups if frozen.subgroups < dataset.m else None)
-    _memos[after] = _Memo(last, sizes)
+    _sizes_memo[after] = sizes
     return after
 
 
@@ -240,7 +231,10 @@ def new_signals(before: Analysis, after: Analysis, start: int | None = None) -> 
 
     A run that continues across the old end keeps its key and is reported at its new point."""
     start = before.dataset.m if start is None else start
-    return [s for s in after.signals if s.last >= start]
+    sig = after.signals
+    if isinstance(sig, SignalTable):
+        return [sig[i] for i in np.flatnonzero(sig.last >= start).tolist()]
+    return [s for s in sig if s.last >= start]
 
 
 def judge_new(analysis_before: Analysis, new_dataset: Dataset, frozen: FrozenLimits | None = None) -> list[Signal]:

@@ -208,30 +208,3 @@ def evaluate(values, center, sigma, lcl, ucl, excluded, ruleset: RuleSet) -> dic
         f, members = fire(rid, x, c, s, lo, hi, ruleset.same_side, z)
         out[rid] = Firing(rid, idx[f], members, idx)
     return out
-
-
-def group_firings(firing: Firing, window: int) -> list[tuple[np.ndarray, np.ndarray]]:
-    """Group overlapping or adjacent firings into signals.
-
-    Returns a list of ``(points, fired)`` pairs in original positions: the pattern points of
-    the group (members inside the windows) and the positions where the rule fired.
-    """
-    idx = firing.index
-    fired_c = np.searchsorted(idx, firing.fired)  # compressed positions of firings
-    if fired_c.size == 0:
-        return []
-    starts = fired_c - (window - 1)
-    new = np.ones(fired_c.size, bool)
-    new[1:] = starts[1:] > fired_c[:-1] + 1
-    group_start = np.flatnonzero(new)
-    group_end = np.r_[group_start[1:], fired_c.size]
-    groups = []
-    for a, b in zip(group_start.tolist(), group_end.tolist()):
-        lo = max(0, int(starts[a]))
-        hi = int(fired_c[b - 1])
-        if firing.members is None:
-            seg = np.arange(lo, hi + 1)
-        else:
-            seg = np.flatnonzero(firing.members[lo:hi + 1]) + lo
-        groups.append((idx[seg], idx[fired_c[a:b]]))
-    return groups

@@ -1,9 +1,10 @@
 """Reading a data file into a table of cells, before any layout is applied.
 
-The file's bytes are read once: they are hashed (SHA-256), decoded to check the encoding
-(UTF-8, UTF-8 with a byte-order mark, else cp1252 with a notice) and handed to a single
-``pandas.read_csv`` pass with the C engine.  XLSX files (first sheet) go through
-``pandas.read_excel``.
+The file's bytes are read once, hashed (SHA-256, on a second thread for large files) and
+checked for their encoding (UTF-8, UTF-8 with a byte-order mark, else cp1252 with a
+notice).  A single ``pandas.read_csv`` pass with the C engine then parses the cells: a UTF-8
+file by path, so that pandas may split a large file across threads, a cp1252 file from the
+bytes already read.  XLSX files (first sheet) go through ``pandas.read_excel``.
 
 Delimiter: the first 64 KB are examined; of comma, semicolon, tab and pipe, the one that
 occurs the same number of times (at least once) on every line wins, the most frequent if
@@ -142,10 +143,12 @@ def read_table(path: str | os.PathLike, text_columns: Callable[[list[str]], Iter
         raise WorkbenchError(f"{shown}: cannot read as {_delim_name(delim)}-separated text: {reason}") from None
     table = Table(shown, frame, len(frame), digest.result(), len(raw), encoding, notices,
                   frozenset(text_columns(names)) & frozenset(names), decimal, source)
+    # Cheap checks that every row has as many fields as the header; when one fails the lines
+    # are numbered now, which names the first ragged row.
+    delims = np.count_nonzero(np.frombuffer(raw, np.uint8) == ord(delim))
     if len(frame) and (b'"' in raw or (b"\r" in raw and raw.count(b"\r") != raw.count(b"\r\n"))
-                       or np.count_nonzero(np.frombuffer(raw, np.uint8) == ord(delim)) != (len(frame) + 1) * (len(names) - 1)
-                       or _has_na(frame.iloc[:, -1])):
-        table.lines  # noqa: B018  (numbers the lines now: raises on a row with too many or too few fields)
+                       or delims != (len(frame) + 1) * (len(names) - 1) or _has_na(frame.iloc[:, -1])):
+        table.lines  # noqa: B018
     return _finish(table)
 
 
@@ -252,7 +255,8 @@ def _read_xlsx(path: str, raw: bytes) -> tuple[pd.DataFrame, list[str]]:
     try:
         frame = pd.read_excel(io.BytesIO(raw), sheet_name=0, header=0, engine="openpyxl")
     except Exception as exc:  # openpyxl and zipfile raise many kinds of error on a damaged workbook
-        raise WorkbenchError(f"{path}: cannot read as an XLSX workbook: {str(exc).splitlines()[0] if str(exc) else type(exc).__name__}") from None
+        reason = str(exc).splitlines()[0] if str(exc).strip() else type(exc).__name__
+        raise WorkbenchError(f"{path}: cannot read as an XLSX workbook: {reason}") from None
     if frame.shape[1] == 0:
         raise WorkbenchError(f"{path} is empty")
     names = _clean_names(path, ["" if str(c).startswith("Unnamed: ") else str(c) for c in frame.columns], 1)

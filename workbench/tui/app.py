@@ -98,7 +98,7 @@ class WorkbenchApp(Flows, App[int]):
             if request is None:
                 self.exit(0)
             else:
-                self._reopen(replace(self.request, request=request))
+                self._reopen(replace(self.request, request=request, mapped=True))
 
         self.push_screen(MappingDialog(str(err), err.path.name, err.columns, err.samples, self.request.request), mapped)
 

@@ -39,6 +39,8 @@ class OpenRequest:
     """When a case for the data exists: ask | reuse | new."""
     dataset: Dataset | None = None
     """A dataset already in memory (generated data for the benchmark and tests)."""
+    mapped: bool = False
+    """The layout request came from the mapping dialog (any load error asks again)."""
 
     @property
     def is_case(self) -> bool:
@@ -133,12 +135,12 @@ def read_columns(path: Path) -> tuple[tuple[str, ...], dict[str, str]]:
     return cols, samples
 
 
-def _load(path: Path, request: LayoutRequest) -> Dataset:
+def _load(path: Path, request: LayoutRequest, mapped: bool = False) -> Dataset:
     from workbench.core.data import load
     try:
         return load(str(path), request)
     except WorkbenchError as exc:
-        if is_detection_error(exc):
+        if mapped or is_detection_error(exc):
             cols, samples = read_columns(path)
             raise NeedMapping(str(exc), path, cols, samples) from None
         raise
@@ -169,7 +171,7 @@ def open_session(req: OpenRequest, progress: Progress = lambda what, f: None) ->
         dataset = req.dataset
     else:
         progress(f"reading {req.path.name}", 0.1)
-        dataset = _load(req.path, req.request)
+        dataset = _load(req.path, req.request, req.mapped)
     progress(f"analysing {dataset.m:,} subgroups", 0.6)
     analysis = analyse(dataset, req.settings)
     progress(f"creating {case_path.name}", 0.9)

@@ -10,21 +10,21 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical
 from textual.screen import Screen
-from textual.widgets import Footer, Static
+from textual.widgets import Static
 from textual.worker import get_current_worker
 
 from ..messages import ChartsReady
 from ..plotting import ChartData, build, label_width, legend_text
 from ..session import Snapshot
 from ..widgets.control_chart import ControlChart
-from ..widgets.panels import SubgroupPanel, TextPanel, status_text
+from ..widgets.keybar import KeyBar
+from ..widgets.lines import LinesPanel
+from ..widgets.panels import SubgroupPanel, status_lines
 from ..widgets.signal_list import SignalList
 from ..window import Window, follow, window_at
 
 WRITES = {"exclude", "restore", "note", "explain", "no_cause", "reopen", "freeze", "setup"}
 MIN_WINDOW = 8
-BINDINGS_DELAY = 0.15
-"""Seconds the cursor rests before the footer's greyed-out keys are brought up to date."""
 
 
 class BenchScreen(Screen):
@@ -66,7 +66,6 @@ class BenchScreen(Screen):
         self.window: Window | None = None
         self.token = 0
         self._enabled: tuple = ()
-        self._bindings_timer = None
 
     def compose(self) -> ComposeResult:
         with Horizontal(id="bench-body"):
@@ -77,8 +76,8 @@ class BenchScreen(Screen):
             with Vertical(id="side"):
                 yield SignalList(id="signals")
                 yield SubgroupPanel(id="subgroup")
-        yield TextPanel(id="status")
-        yield Footer()
+        yield LinesPanel(id="status")
+        yield KeyBar()
 
     def on_mount(self) -> None:
         self.query_one("#signals").border_title = "signals"
@@ -185,20 +184,6 @@ class BenchScreen(Screen):
         self.query_one(SignalList).select(row)
         self.query_one(SubgroupPanel).show(snap, p)
         self.update_status()
-        self._schedule_bindings()
-
-    def _schedule_bindings(self) -> None:
-        """Grey out what no longer applies once the cursor rests (a footer update costs a layout).
-
-        Keys are checked against ``check_action`` when pressed, so a key that does not apply
-        never runs; only the footer's greying waits for the cursor to settle.
-        """
-        if self._bindings_timer is not None:
-            self._bindings_timer.stop()
-        self._bindings_timer = self.set_timer(BINDINGS_DELAY, self._refresh_enabled)
-
-    def _refresh_enabled(self) -> None:
-        self._bindings_timer = None
         enabled = tuple(self.check_action(a, ()) for a in sorted(WRITES | {"next_signal", "prev_signal"}))
         if enabled != self._enabled:
             self._enabled = enabled
@@ -206,7 +191,8 @@ class BenchScreen(Screen):
 
     def update_status(self, busy: str = "") -> None:
         if self.snap is not None:
-            self.query_one("#status", TextPanel).set_text(status_text(self.snap, self.cursor, self.app.busy, busy))
+            status = self.query_one("#status", LinesPanel)
+            status.set_lines(status_lines(self.snap, self.cursor, self.app.busy, busy, self.has_class("wide")))
 
     @on(ControlChart.Clicked)
     def chart_clicked(self, msg: ControlChart.Clicked) -> None:

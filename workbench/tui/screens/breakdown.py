@@ -8,7 +8,7 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, VerticalScroll
 from textual.screen import Screen
-from textual.widgets import DataTable, Footer, Static
+from textual.widgets import DataTable, Static
 from textual_plotext import PlotextPlot
 
 from workbench.core.model import Breakdown
@@ -19,6 +19,7 @@ from ..session import Snapshot
 from ..view import STATE_WORDS, safe
 from ..widgets.comparison import comparison_text
 from ..widgets.neighbourhood import NEIGHBOURS, neighbourhood_text
+from ..widgets.keybar import KeyBar
 
 WRITES = {"exclude", "exclude_reading", "restore"}
 COLUMNS = ("stream", "reading", "− mean", "stream mean", "stream SD", "z (own)", "role", "share of R", "excluded")
@@ -64,7 +65,7 @@ class BreakdownScreen(Screen):
             yield StreamPlot(id="bd-plot")
             with VerticalScroll(id="bd-compare"):
                 yield Static("comparing the streams…", id="bd-compare-text", markup=False)
-        yield Footer()
+        yield KeyBar()
 
     def on_mount(self) -> None:
         table = self.query_one(DataTable)

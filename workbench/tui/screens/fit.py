@@ -9,11 +9,12 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, VerticalScroll
 from textual.screen import Screen
-from textual.widgets import Footer, Static
+from textual.widgets import Static
 
 from ..messages import Computed
 from ..session import Snapshot
 from ..widgets.histogram import FitPlot, fit_picture
+from ..widgets.keybar import KeyBar
 
 METHODS = ("normal", "box-cox", "percentile", "auto")
 CAUTION = ("Capability indices are estimates from a sample, and they are only meaningful for a stable "
@@ -58,7 +59,7 @@ class FitScreen(Screen):
             yield FitPlot(id="fit-plot")
             with VerticalScroll(id="fit-side"):
                 yield Static("assessing…", id="fit-text", markup=False)
-        yield Footer()
+        yield KeyBar()
 
     def on_mount(self) -> None:
         self.query_one("#fit-side").border_title = "capability"

@@ -6,9 +6,10 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Vertical
 from textual.screen import Screen
-from textual.widgets import Footer, LoadingIndicator, ProgressBar, Static
+from textual.widgets import LoadingIndicator, ProgressBar, Static
 
 from ..view import safe
+from ..widgets.keybar import KeyBar
 
 
 class LoadingScreen(Screen):
@@ -26,7 +27,7 @@ class LoadingScreen(Screen):
             yield Static(Text(f"opening {safe(self.what)}"), id="loading-what")
             yield ProgressBar(total=100, show_eta=False, id="loading-bar")
             yield LoadingIndicator()
-        yield Footer()
+        yield KeyBar()
 
     def progress(self, what: str, fraction: float) -> None:
         self.query_one("#loading-what", Static).update(Text(safe(what)))

@@ -6,13 +6,14 @@ from textual import on, work
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.screen import Screen
-from textual.widgets import DataTable, Footer, Static
+from textual.widgets import DataTable, Static
 
 from workbench.core.case import describe
 
 from ..messages import Computed
 from ..session import Snapshot
 from ..view import limits_change, safe
+from ..widgets.keybar import KeyBar
 
 
 class TrailScreen(Screen):
@@ -31,7 +32,7 @@ class TrailScreen(Screen):
         yield Static(id="trail-integrity", markup=False)
         yield DataTable(id="trail-table", cursor_type="row", zebra_stripes=True)
         yield Static(id="trail-detail", markup=False)
-        yield Footer()
+        yield KeyBar()
 
     def on_mount(self) -> None:
         table = self.query_one(DataTable)

@@ -34,16 +34,18 @@ def neighbourhood_text(ds: Dataset, p: int, row: int, width: int, height: int) -
         ok = np.isfinite(col)
         if not ok.any():
             continue
-        colour = HIGHLIGHT if j == row else PALETTE[j % len(PALETTE)]
-        plt.plot([x[i] for i in np.flatnonzero(ok)], col[ok].tolist(), marker="braille" if j != row else "•",
-                 color=colour)
+        xs = [x[i] for i in np.flatnonzero(ok)]
+        plt.plot(xs, col[ok].tolist(), marker="braille", color=HIGHLIGHT if j == row else PALETTE[j % len(PALETTE)])
+        if j == row:
+            plt.scatter(xs, col[ok].tolist(), marker="●", color=HIGHLIGHT)
     plt.vline(p, color=PHASE)
     finite = block[np.isfinite(block)]
     if finite.size:
         ticks = [float(finite.min()), float(finite.max())]
         plt.yticks(ticks, [short(v) for v in ticks])
-    plt.xticks([lo, p, hi - 1] if hi - 1 > p > lo else [p], [safe(ds.labels[i])[:10] for i in
-                                                            ([lo, p, hi - 1] if hi - 1 > p > lo else [p])])
+    ticks = [lo, p, hi - 1] if hi - 1 > p > lo else [p]
+    room = max(6, width // 3 - 3)
+    plt.xticks(ticks, [safe(ds.labels[i])[-room:] for i in ticks])
     plt.xlim(lo - 0.5, hi - 0.5)
     text = Text.from_ansi(plt.build(), no_wrap=True, end="")
     if 0 <= row < ds.k:

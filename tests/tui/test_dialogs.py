@@ -1,0 +1,125 @@
+"""Dialogs: an empty reason is refused, the setup records a settings event, the mapping dialog."""
+from __future__ import annotations
+
+from workbench.tui.dialogs.choice import ChoiceDialog
+from workbench.tui.dialogs.exclude import ExcludeDialog
+from workbench.tui.dialogs.mapping import MappingDialog
+from workbench.tui.dialogs.setup import SetupDialog
+from workbench.tui.screens.bench import BenchScreen
+
+from tui_helpers import data_app, demo_app, screen_text, settle
+
+
+async def test_exclude_dialog_refuses_an_empty_reason(in_tmp):
+    app = demo_app()
+    async with app.run_test(size=(120, 36)) as pilot:
+        await settle(pilot)
+        await pilot.press("x")
+        await settle(pilot)
+        dialog = app.screen
+        assert isinstance(dialog, ExcludeDialog)
+        await pilot.press("space", "space", "enter")  # blanks are no reason
+        await settle(pilot)
+        assert app.screen is dialog
+        assert "A reason is required" in screen_text(app)
+        await pilot.click("#confirm")
+        await settle(pilot)
+        assert app.screen is dialog
+        await pilot.press("escape")
+        await settle(pilot)
+        assert isinstance(app.screen, BenchScreen)
+        assert app.snapshot.state.exclusions == () and len(app.snapshot.events) == 1
+        await pilot.press("q")
+
+
+async def test_exclude_one_reading_from_the_dialog(in_tmp):
+    app = demo_app()
+    async with app.run_test(size=(120, 36)) as pilot:
+        await settle(pilot)
+        await pilot.press("x")
+        await settle(pilot)
+        dialog = app.screen
+        await pilot.press(*"bubble in the bottle")
+        dialog.query_one("#scope-reading").value = True
+        await settle(pilot)
+        dialog.query_one("#stream").value = "H3"
+        dialog.query_one("#cause").value = "material"
+        await pilot.click("#confirm")
+        await settle(pilot)
+        state = app.snapshot.state
+        label = str(app.snapshot.dataset.labels[0])
+        assert [e.key for e in state.exclusions] == [f"{label}:H3"]
+        assert state.exclusion_info[f"{label}:H3"].cause == "material"
+        assert app.snapshot.analysis.excluded_cells[0, 2] and not app.snapshot.analysis.excluded_subgroups[0]
+        await pilot.press("q")
+
+
+async def test_setup_refuses_bad_numbers_and_records_a_settings_event(in_tmp):
+    app = demo_app()
+    async with app.run_test(size=(120, 36)) as pilot:
+        await settle(pilot)
+        await pilot.press("s")
+        await settle(pilot)
+        dialog = app.screen
+        assert isinstance(dialog, SetupDialog)
+        assert "beyond-limits" in screen_text(app)  # each rule explained in words
+        dialog.query_one("#usl").value = "five hundred"
+        dialog.action_apply()
+        await settle(pilot)
+        assert app.screen is dialog and "not a number" in screen_text(app)
+        dialog.query_one("#usl").value = "503"
+        dialog.query_one("#rules").value = "nelson"
+        await settle(pilot)
+        assert "✓ trend" in screen_text(app)
+        dialog.action_apply()
+        await settle(pilot)
+        assert isinstance(app.screen, BenchScreen)
+        snap = app.snapshot
+        assert snap.events[-1].kind == "settings" and snap.state.settings.rules == "nelson"
+        assert snap.analysis.location.rules == ("beyond-limits", "zone-a", "zone-b", "same-side", "trend",
+                                                "alternating", "hugging", "avoid-centre")
+        await pilot.press("q")
+
+
+async def test_mapping_dialog_when_the_layout_is_not_detected(in_tmp):
+    # numbered cavities: the key repeats and no text column can be the stream, so detection stops
+    rows = ["lot,cavity_no,reading"] + [f"L{i // 2 + 1},{i % 2 + 1},{10 + (i * 7) % 5 / 10}" for i in range(40)]
+    (in_tmp / "moulds.csv").write_text("\n".join(rows) + "\n", encoding="utf-8")
+    app = data_app(in_tmp / "moulds.csv")
+    async with app.run_test(size=(120, 36)) as pilot:
+        await settle(pilot)
+        dialog = app.screen
+        assert isinstance(dialog, MappingDialog)
+        assert "give --stream" in screen_text(app)
+        dialog.query_one("#kind").value = "long"
+        dialog.query_one("#subgroup").value = "lot"
+        dialog.query_one("#stream").value = "cavity_no"
+        dialog.query_one("#value").value = "reading"
+        await settle(pilot)
+        dialog.submit()
+        await settle(pilot)
+        assert isinstance(app.screen, BenchScreen)
+        ds = app.snapshot.dataset
+        assert (ds.m, ds.streams) == (20, ("1", "2"))
+        assert (in_tmp / "casefiles" / "moulds.case.json").is_file()
+        await pilot.press("q")
+
+
+async def test_an_existing_case_is_offered(in_tmp):
+    rows = ["sample,S1,S2,S3"] + [f"{i + 1},{5 + i % 3 / 10},{5 + i % 4 / 10},{5 + i % 5 / 10}" for i in range(30)]
+    (in_tmp / "torque.csv").write_text("\n".join(rows) + "\n", encoding="utf-8")
+    first = data_app(in_tmp / "torque.csv")
+    async with first.run_test(size=(120, 36)) as pilot:
+        await settle(pilot)
+        assert isinstance(first.screen, BenchScreen)
+        await pilot.press("q")
+    for choice, name in (("new", "torque-2.case.json"), ("reuse", "torque.case.json")):
+        app = data_app(in_tmp / "torque.csv")
+        async with app.run_test(size=(120, 36)) as pilot:
+            await settle(pilot)
+            assert isinstance(app.screen, ChoiceDialog)
+            await pilot.click(f"#choice-{choice}")
+            await settle(pilot)
+            assert isinstance(app.screen, BenchScreen)
+            assert app.snapshot.case_name == name
+            await pilot.press("q")
