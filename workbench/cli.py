@@ -148,7 +148,7 @@ def cmd_report(args: argparse.Namespace) -> int:
         a = case.analyse(ds)
         states = case.state.signal_states
         fmt_name = args.format
-        text = render(a, fmt_name, states)
+        text = render(a, fmt_name, states, args.points)
         if fmt_name == "json":
             import json
             obj = json.loads(text)
@@ -165,7 +165,7 @@ def cmd_report(args: argparse.Namespace) -> int:
         settings = settings_from_args(args, _default_settings_for(args.path))
         excl = [e for e, _ in _parse_exclusions(args.exclude, ds.streams)]
         a = analyse(ds, settings, excl)
-        text = render(a, args.format)
+        text = render(a, args.format, with_values=args.points)
     out = text + (("\n" + extra) if extra else "")
     if args.output:
         Path(args.output).write_text(out, encoding="utf-8")
@@ -207,6 +207,8 @@ def build_parser() -> argparse.ArgumentParser:
                    help="leave a subgroup or one reading out of the limits (repeatable)")
     r.add_argument("--format", choices=("text", "markdown", "json"), default="text")
     r.add_argument("-o", "--output", metavar="FILE", help="write the report to FILE")
+    r.add_argument("--points", action="store_true",
+                   help="JSON: include every subgroup's label and plotted values")
     r.add_argument("--fail-on-signal", action="store_true", help="exit 1 when an open signal remains")
     r.set_defaults(func=cmd_report)
 

@@ -109,3 +109,12 @@ def test_module_entry_point_no_traceback(tmp_path):
     r = subprocess.run([sys.executable, "-m", "workbench", "report", str(bad)], capture_output=True, text=True,
                        timeout=120)
     assert r.returncode in (0, 2) and "Traceback" not in r.stderr
+
+
+def test_points_option_adds_labels_and_values(capsys):
+    code, out, _ = run(capsys, "report", str(DEMO / "tank_ph.csv"), "--format", "json", "--points")
+    r = _no_nan(out)
+    assert code == 0 and len(r["labels"]) == r["subgroups"] == len(r["charts"][0]["values"])
+    assert r["charts"][1]["values"][0] is None  # the first moving range is undefined
+    _, out, _ = run(capsys, "report", str(DEMO / "tank_ph.csv"), "--format", "json")
+    assert "labels" not in json.loads(out) and "values" not in json.loads(out)["charts"][0]

@@ -20,9 +20,7 @@ import numpy as np
 import pytest
 
 from workbench.cli import main
-from workbench.core.analysis import analyse
 from workbench.core.casefile import Case
-from workbench.core.data import load
 
 TIMEOUT = 60.0
 """Only a failing test waits this long; a passing one returns as soon as the lines are there."""
@@ -48,10 +46,12 @@ def row(i: int, values) -> str:
 
 
 def make_case(tmp_path: Path, phase1: int = 25, freeze: bool = True) -> tuple[Path, str]:
-    """Phase I of in-control readings (4 streams) whose last 4 subgroups sit above the centre."""
+    """Phase I of in-control readings (4 streams) whose last 4 subgroups sit above the centre, the one
+    before them below it."""
     rng = np.random.default_rng(21)
     v = rng.normal(10.0, 1.0, (phase1, 4))
     v[-4:] += 1.0
+    v[-5] -= 2.0
     path = tmp_path / "line.csv"
     path.write_text("time,H1,H2,H3,H4\n" + "".join(row(i, v[i]) for i in range(phase1)), encoding="utf-8")
     case = str(tmp_path / "line.case.json")
@@ -158,9 +158,11 @@ def test_a_live_watch_stops_with_a_clear_message_when_the_file_is_rewritten(tmp_
     lines = Lines(proc)
     try:
         lines.until(lambda got: any(x["event"] == "start" for x in got), "the start line")
-        with open(path, "r+b") as fh:  # same size: the last reading changed in place
+        with open(path, "r+b") as fh:  # same size: the last reading's last digits changed in place
             fh.seek(-3, os.SEEK_END)
-            fh.write(b"99\n")
+            old = fh.read(2)
+            fh.seek(-3, os.SEEK_END)
+            fh.write(b"11" if old != b"11" else b"22")
         assert proc.wait(timeout=TIMEOUT) == 2
     finally:
         if proc.poll() is None:
@@ -177,7 +179,7 @@ def test_once_exits_1_on_a_new_signal_and_0_when_nothing_new(tmp_path, capsys):
         centre = c.state.frozen.center
     assert main(["watch", case, "--once"]) == 0  # nothing appended since the freeze
     with open(path, "a", encoding="utf-8") as fh:
-        fh.write(row(25, [centre] * 4) + row(26, [centre + 9.0] * 4))
+        fh.write(row(25, [centre - 0.3] * 4) + row(26, [centre + 9.0] * 4))
     capsys.readouterr()
     assert main(["watch", case, "--once", "--format", "json"]) == 1
     out = [json.loads(x) for x in capsys.readouterr().out.splitlines()]
@@ -186,7 +188,7 @@ def test_once_exits_1_on_a_new_signal_and_0_when_nothing_new(tmp_path, capsys):
         == [("xbar", "beyond-limits", 26, stamp(26))]
     assert main(["watch", case, "--once"]) == 0  # already seen: the case remembers
     with open(path, "a", encoding="utf-8") as fh:
-        fh.write(row(27, [centre] * 4))
+        fh.write(row(27, [centre - 0.3] * 4))
     capsys.readouterr()
     assert main(["watch", case, "--once", "--each"]) == 0
     text = capsys.readouterr().out

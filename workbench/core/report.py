@@ -65,8 +65,11 @@ def signal_json(a: Analysis, s, states: dict | None = None) -> dict[str, Any]:
     return out
 
 
-def report_json(a: Analysis, states: dict | None = None, with_values: bool = True) -> dict[str, Any]:
-    """The JSON report (schema ``workbench.report/1``); contains no NaN."""
+def report_json(a: Analysis, states: dict | None = None, with_values: bool = False) -> dict[str, Any]:
+    """The JSON report (schema ``workbench.report/1``); contains no NaN.
+
+    ``with_values`` adds each chart's plotted values and the subgroup labels (one entry per subgroup).
+    """
     ds = a.dataset
     out: dict[str, Any] = {
         "schema": SCHEMA,
@@ -87,10 +90,11 @@ def report_json(a: Analysis, states: dict | None = None, with_values: bool = Tru
         "phase2_start": a.phase2_start,
         "warnings": list(a.warnings),
         "notices": list(ds.notices),
-        "labels": [str(x) for x in ds.labels.tolist()] if with_values else None,
         "capability": None,
         "streams_comparison": None,
     }
+    if with_values:
+        out["labels"] = [str(x) for x in ds.labels.tolist()]
     if a.phase2_start is not None:
         out["phase"] = {"start": a.phase2_start, "frozen": True}
     cmp_ = a.comparison
@@ -260,9 +264,9 @@ def report_markdown(a: Analysis, states: dict | None = None) -> str:
     return "\n".join(L) + "\n"
 
 
-def render(a: Analysis, fmt_name: str, states: dict | None = None) -> str:
+def render(a: Analysis, fmt_name: str, states: dict | None = None, with_values: bool = False) -> str:
     if fmt_name == "json":
-        return dumps(report_json(a, states)) + "\n"
+        return dumps(report_json(a, states, with_values)) + "\n"
     if fmt_name == "text":
         return report_text(a, states)
     if fmt_name == "markdown":

@@ -6,7 +6,8 @@ subgroup range that disappears when that stream's reading is left out: (R − R�
 zero for a stream inside the range and large for a reading that alone sets an extreme.
 
 For the whole dataset the streams are compared with a one-way ANOVA and the Kruskal–Wallis
-test (both from scipy), and the variance is split into between-stream and within-stream
+test (computed here with numpy and the F and chi-square tails of scipy.special, so a report
+does not pay for importing scipy.stats; the tests check both against scipy.stats), and the variance is split into between-stream and within-stream
 components (one-way random-effects model, method of moments).
 
 References
@@ -19,7 +20,7 @@ Kruskal, W. H. & Wallis, W. A. (1952). Use of ranks in one-criterion variance an
 from __future__ import annotations
 
 import numpy as np
-from scipy import stats as st
+from scipy import special
 
 from .model import Analysis, Breakdown, StreamComparison, StreamRow
 
@@ -52,20 +53,16 @@ def compare(a: Analysis) -> StreamComparison | None:
     valid = [g for g in groups if g.size >= 2]
     f = p = h = hp = vb = vw = share = None
     if len(valid) >= 2:
-        with np.errstate(all="ignore"):
-            fr = st.f_oneway(*valid)
-            f, p = _num(fr.statistic), _num(fr.pvalue)
-            try:
-                kr = st.kruskal(*valid)
-                h, hp = _num(kr.statistic), _num(kr.pvalue)
-            except ValueError:  # all values identical
-                h = hp = None
         sizes = np.array([g.size for g in valid], float)
         big_n, k = sizes.sum(), len(valid)
         gm = sum(g.sum() for g in valid) / big_n
         ssb = sum(g.size * (g.mean() - gm) ** 2 for g in valid)
         ssw = sum(((g - g.mean()) ** 2).sum() for g in valid)
         msb, msw = ssb / (k - 1), ssw / (big_n - k)
+        with np.errstate(all="ignore"):
+            f = _num(msb / msw) if msw > 0 else None
+            p = _num(special.fdtrc(k - 1, big_n - k, f)) if f is not None else None
+            h, hp = kruskal_wallis(valid)
         n0 = (big_n - (sizes ** 2).sum() / big_n) / (k - 1)
         vb, vw = max(0.0, (msb - msw) / n0), float(msw)
         share = vb / (vb + vw) if (vb + vw) > 0 else None
@@ -75,6 +72,33 @@ def compare(a: Analysis) -> StreamComparison | None:
         streams=ds.streams, means=tuple(float(x) for x in mean), sds=tuple(float(x) for x in sd),
         counts=tuple(int(x) for x in n), anova_f=f, anova_p=p, kruskal_h=h, kruskal_p=hp,
         var_between=vb, var_within=vw, share_between=share, differ=differ, advice=advice)
+
+
+def kruskal_wallis(groups: list[np.ndarray]) -> tuple[float | None, float | None]:
+    """Kruskal–Wallis H (with the tie correction) and its chi-square p-value on k − 1 df.
+
+    References
+    ----------
+    Kruskal & Wallis (1952), JASA 47: H = 12/(N(N+1)) Σ Rⱼ²/nⱼ − 3(N+1), divided by
+    1 − Σ(t³ − t)/(N³ − N) for ties.
+    """
+    x = np.concatenate(groups)
+    big_n = x.size
+    order = np.argsort(x, kind="mergesort")
+    xs = x[order]
+    # average ranks of ties: ranks of each run of equal values share their mean
+    starts = np.flatnonzero(np.r_[True, xs[1:] != xs[:-1]])
+    counts = np.diff(np.r_[starts, big_n])
+    mean_rank = starts + (counts + 1) / 2.0
+    ranks = np.empty(big_n)
+    ranks[order] = np.repeat(mean_rank, counts)
+    ties = 1.0 - float(np.sum(counts.astype(float) ** 3 - counts)) / (float(big_n) ** 3 - big_n)
+    if ties <= 0:
+        return None, None
+    bounds = np.cumsum([0] + [g.size for g in groups])
+    h = 12.0 / (big_n * (big_n + 1.0)) * sum(ranks[a:b].sum() ** 2 / (b - a) for a, b in zip(bounds, bounds[1:]))
+    h = (h - 3.0 * (big_n + 1)) / ties
+    return _num(h), _num(special.chdtrc(len(groups) - 1, h))
 
 
 def _num(x) -> float | None:

@@ -37,14 +37,17 @@ def window_at(start: int, size: int, m: int) -> Window:
 
 
 def follow(win: Window, position: int, m: int) -> Window:
-    """The window moved (by half its size at a time) so that it shows ``position``."""
+    """The window moved so that it shows ``position``: by half its size when the position is just
+    outside it (stepping along), else centred on the position (a jump)."""
     if win.contains(position):
         return win
     half = max(1, win.size // 2)
-    if position < win.start:
-        start = position - half if win.start - position <= half else position - win.size // 2
+    if win.stop <= position < win.stop + half:
+        start = win.start + half
+    elif win.start - half <= position < win.start:
+        start = win.start - half
     else:
-        start = position - win.size + 1 + half if position - win.stop < half else position - win.size // 2
+        start = position - win.size // 2
     return window_at(start, win.size, m)
 
 

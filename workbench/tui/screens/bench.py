@@ -158,7 +158,11 @@ class BenchScreen(Screen):
         self.set_class(self.size.width < 100, "narrow")
         self.set_class(self.size.height < 30, "short")
         self.set_class(self.size.width >= 150, "wide")
-        self.call_after_refresh(self.request_charts)
+        self.call_after_refresh(self._after_resize)
+
+    def _after_resize(self) -> None:
+        self.request_charts()
+        self._update_cursor_views()
 
     # -- the cursor ---------------------------------------------------------------------------
 
@@ -192,7 +196,8 @@ class BenchScreen(Screen):
     def update_status(self, busy: str = "") -> None:
         if self.snap is not None:
             status = self.query_one("#status", LinesPanel)
-            status.set_lines(status_lines(self.snap, self.cursor, self.app.busy, busy, self.has_class("wide")))
+            status.set_lines(status_lines(self.snap, self.cursor, self.app.busy, busy, status.size.width or 120,
+                                          1 if self.has_class("wide") else 2))
 
     @on(ControlChart.Clicked)
     def chart_clicked(self, msg: ControlChart.Clicked) -> None:

@@ -88,29 +88,45 @@ class SubgroupPanel(LinesPanel, can_focus=False):
         self.set_lines(subgroup_lines(snap, p, max(self.size.width, 20)))
 
 
-def status_lines(snap: Snapshot, p: int, saving: bool, busy: str = "", one_line: bool = False) -> Lines:
-    """Chart kind, sigma and method, limits, counts, frozen, case file name and saved state."""
+def status_lines(snap: Snapshot, p: int, saving: bool, busy: str = "", width: int = 120,
+                 lines: int = 2) -> Lines:
+    """Chart kind, sigma and method, limits, frozen | counts, case file name and saved state, position.
+
+    Two lines (or one when ``lines`` is 1); a piece that does not fit its line is left out, the
+    least important (the position) first, and numbers get fewer digits when the bar is narrow.
+    """
     a, mk = snap.analysis, snap.marks
-    out = Lines()
-    out.add(f" {a.chart} ", BOLD_REVERSE).add(f" σ {short(a.sigma_within)} {sigma_label(a)}")
+    narrow = width < 100
+    num = (lambda v: f"{v:.4g}") if narrow else short  # noqa: E731
+    setup: list[list[tuple[str, Style | None]]] = [
+        [(f" {a.chart} ", BOLD_REVERSE), (f" σ {num(a.sigma_within)} {sigma_label(a)}", None)]]
     for c in a.charts:
         lim = (c.lcl[p], c.center[p], c.ucl[p])
-        out.add(f" │ {c.name} ").add(" · ".join(short(float(v)) if np.isfinite(v) else "—" for v in lim))
+        setup.append([(f"{c.name} ", None), (" · ".join(num(float(v)) if np.isfinite(v) else "—" for v in lim), None)])
     if a.phase2_start is not None or snap.state.frozen is not None:
-        out.add(" │ ").add("frozen", BOLD_REVERSE)
+        g = [("frozen", BOLD_REVERSE)]
         if a.phase2_start is not None:
-            out.add(f" Phase II from {safe(a.dataset.labels[a.phase2_start])}")
-    if not one_line:
+            g.append((f" Phase II from {safe(a.dataset.labels[a.phase2_start])}", None))
+        setup.append(g)
+    words = ("expl.", "no cause", "excl.") if narrow else ("explained", "no cause", "excluded")
+    state = (("read-only", BOLD_REVERSE) if snap.readonly else (busy or "saving…", ITALIC) if saving
+             else ("saved", DIM))
+    case = [
+        [("open ", None), (str(mk.open_count), GLYPH_STYLE[OPEN] if mk.open_count else BOLD),
+         (f" · {words[0]} {mk.explained_count} · {words[1]} {mk.no_cause_count} · {words[2]} {mk.excluded_count}",
+          None)],
+        [(safe(snap.case_name), BOLD), (" ", None), state],
+        [(f"{'' if narrow else 'subgroup '}{p + 1:,}/{a.dataset.m:,}", None)]]
+    out = Lines()
+    for line in ([setup + case] if lines == 1 else [setup, case]):
+        used = 0
+        for g in line:
+            size = sum(len(t) for t, _ in g) + (3 if used else 1)
+            if used + size > width:
+                continue  # no room: the piece is left out rather than cut
+            out.add(" │ " if used else " ", DIM)
+            for text, style in g:
+                out.add(text, style)
+            used += size
         out.end()
-    else:
-        out.add(" │")
-    out.add(" open ").add(str(mk.open_count), GLYPH_STYLE[OPEN] if mk.open_count else BOLD)
-    out.add(f" · explained {mk.explained_count} · no cause {mk.no_cause_count} · excluded {mk.excluded_count}")
-    out.add(f" │ subgroup {p + 1:,}/{a.dataset.m:,} │ ").add(safe(snap.case_name), BOLD).add(" ")
-    if snap.readonly:
-        out.add("read-only", BOLD_REVERSE)
-    elif saving:
-        out.add(busy or "saving…", ITALIC)
-    else:
-        out.add("saved", DIM)
-    return out.end()
+    return out

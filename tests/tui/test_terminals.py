@@ -1,0 +1,106 @@
+"""Terminal sizes, resizing, NO_COLOR, read-only cases and text fields shown literally."""
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from workbench.core.casefile import Case
+from workbench.core.model import Dataset, Layout, Settings
+from workbench.tui.app import WorkbenchApp
+from workbench.tui.screens.bench import BenchScreen
+from workbench.tui.session import OpenRequest
+
+from tui_helpers import demo_app, screen_text, settle
+
+
+async def test_usable_at_80_by_24(in_tmp):
+    app = demo_app()
+    async with app.run_test(size=(80, 24)) as pilot:
+        await settle(pilot)
+        bench = app.screen
+        assert isinstance(bench, BenchScreen) and bench.has_class("narrow") and bench.has_class("short")
+        loc, spread = bench.query_one("#location"), bench.query_one("#spread")
+        assert loc.picture is not None and spread.picture is not None
+        assert loc.size.height >= 6 and spread.size.height >= 5
+        side = bench.query_one("#side")
+        assert side.region.y >= loc.region.bottom  # the side panels stack under the charts
+        text = screen_text(app)
+        assert "UCL" in text and "signals" in text and "filler_line3.case.json" in text
+        await pilot.press("n", "enter")
+        await settle(pilot)
+        assert "Verdict" in screen_text(app)
+        await pilot.press("escape", "v")  # hide the panels: the charts take the room
+        await settle(pilot)
+        assert bench.query_one("#location").size.height > loc.size.height - 1
+        await pilot.press("q")
+
+
+@pytest.mark.parametrize("sizes", [((120, 36), (80, 24), (200, 60), (50, 14), (120, 36))])
+async def test_resizing_never_crashes(in_tmp, sizes):
+    app = demo_app()
+    async with app.run_test(size=sizes[0]) as pilot:
+        await settle(pilot)
+        for w, h in sizes[1:]:
+            await pilot.resize_terminal(w, h)
+            await settle(pilot)
+            bench = app.screen
+            pic = bench.query_one("#location").picture
+            assert pic is not None and pic.width == bench.query_one("#location").size.width
+            await pilot.press("n", "right", "plus", "minus", "0")
+            await settle(pilot)
+        await pilot.press("q")
+
+
+def test_no_color_is_respected(monkeypatch):
+    monkeypatch.setenv("NO_COLOR", "1")
+    # https://no-color.org: a program that sees NO_COLOR set does not add colour (Textual drops it)
+    assert WorkbenchApp(OpenRequest(Path("x.csv"))).no_color
+    monkeypatch.delenv("NO_COLOR")
+    assert not WorkbenchApp(OpenRequest(Path("x.csv"))).no_color
+
+
+async def test_read_only_when_another_session_writes(in_tmp):
+    app = demo_app()
+    async with app.run_test(size=(120, 36)) as pilot:
+        await settle(pilot)
+        await pilot.press("q")
+    holder = Case.open(in_tmp / "casefiles" / "filler_line3.case.json", author="someone@else")
+    try:
+        app = demo_app()
+        async with app.run_test(size=(120, 36)) as pilot:
+            await settle(pilot)
+            bench = app.screen
+            assert app.snapshot.readonly and "someone@else" in app.snapshot.readonly_reason
+            for action in ("exclude", "note", "setup", "freeze"):
+                assert bench.check_action(action, ()) is None, action
+            await pilot.press("x")
+            await settle(pilot)
+            assert isinstance(app.screen, BenchScreen)  # nothing opens for an action that does not apply
+            assert "read-only" in screen_text(app)
+            await pilot.press("q")
+    finally:
+        holder.close()
+
+
+async def test_markup_and_escapes_in_data_show_literally(in_tmp):
+    rng = np.random.default_rng(11)
+    streams = ("[bold]A", "B\x1b[31m", "C")
+    ds = Dataset(path="odd.csv", sha256="0" * 64, rows=30, size_bytes=0, layout=Layout("wide", streams=streams),
+                 labels=np.array([f"[i]{i}" for i in range(30)]), streams=streams,
+                 values=rng.normal(10, 1, (30, 3)))
+    app = WorkbenchApp(OpenRequest(Path("odd.csv"), settings=Settings(), dataset=ds,
+                                   case_path=in_tmp / "odd.case.json"), hide_times=True)
+    async with app.run_test(size=(120, 36)) as pilot:
+        await settle(pilot)
+        text = screen_text(app)
+        assert "[bold]A" in text and "B\\x1b[31m" in text and "[i]0" in text
+        await pilot.press("a")
+        await settle(pilot)
+        await pilot.press(*"[red]see")
+        await pilot.press("enter")
+        await settle(pilot)
+        assert app.snapshot.state.notes[-1].text == "[red]see"
+        assert "note: [red]see" in screen_text(app)
+        await pilot.press("q")
