@@ -104,6 +104,26 @@ def test_appended_rows_give_the_dataset_a_full_load_gives(tmp_path, kind):
     assert f.sha256 == hashlib.sha256(path.read_bytes()).hexdigest()
 
 
+@pytest.mark.parametrize("head, rows, encoding", [
+    ("time,A,B\r\n", ["2026-01-01 00:0{i},{i}.5,{i}\r\n"], "utf-8"),  # CRLF line ends
+    ("time;A;B\n", ["2026-01-01 00:0{i};{i},5;{i},25\n"], "utf-8"),  # semicolons and decimal commas
+    ('lot,A,B,remark\n', ['L{i},{i},{i}.5,"a, b ""{i}"""\n'], "utf-8"),  # a quoted field with a delimiter
+    ("lot,A,B,remark\n", ["L{i},{i},2,caf\u00e9 {i}\n"], "cp1252"),  # not UTF-8: read as cp1252
+    ("\ufefftime,A,B\n", ["2026-01-01 00:0{i},{i},1\n"], "utf-8"),  # a byte-order mark
+])
+def test_appended_rows_are_read_in_the_file_s_own_format(tmp_path, head, rows, encoding):
+    path = tmp_path / "fmt.csv"
+    text = lambda a, b: "".join(rows[0].format(i=i) for i in range(a, b))  # noqa: E731
+    path.write_bytes((head + text(0, 4)).encode(encoding))
+    f = Follower.open(path)
+    raw = text(4, 8).encode(encoding)
+    for piece in (raw[:9], raw[9:]):
+        with open(path, "ab") as fh:
+            fh.write(piece)
+        assert f.poll().ok
+    same_dataset(f.dataset, load(path))  # [definition] the loader on the whole file
+
+
 def test_a_partly_written_line_waits_for_its_end(tmp_path):
     path = tmp_path / "w.csv"
     path.write_text("time,A,B\n2026-01-01 00:00,1,2\n2026-01-01 00:01,3,4\n")
@@ -180,6 +200,20 @@ def test_long_rows_that_cannot_be_followed_are_refused(tmp_path, rows, message):
     append(path, rows)
     with pytest.raises(WorkbenchError, match=message):
         f.poll()
+
+
+def test_a_large_append_is_read_in_several_polls(tmp_path):
+    path = tmp_path / "w.csv"
+    path.write_text("A,B\n1,2\n")
+    f = Follower.open(path)
+    append(path, "".join(f"{i},{i}\n" for i in range(100)))
+    polls, more = 0, True
+    while more:
+        u = f.poll(max_bytes=64)
+        polls, more = polls + 1, u.more
+        assert u.ok and u.pending_bytes < 64
+    assert polls > 5
+    same_dataset(f.dataset, load(path))
 
 
 def _followed(tmp_path, n=2000):

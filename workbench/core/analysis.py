@@ -86,9 +86,13 @@ def resolve_sigma(chart: str, ds: Dataset, settings: Settings) -> str:
 
 
 def exclusion_masks(ds: Dataset, exclusions: Iterable[Exclusion]) -> tuple[np.ndarray, np.ndarray]:
-    """Boolean masks (subgroups,) and (subgroups, streams) for a set of exclusions."""
+    """Boolean masks (subgroups,) and (subgroups, streams) for a set of exclusions.
+
+    Without single-reading exclusions the cell mask is a read-only broadcast of the subgroup mask.
+    """
     sub = np.zeros(ds.m, bool)
-    cells = np.zeros((ds.m, max(ds.k, 1)), bool)
+    k = max(ds.k, 1)
+    cell_list: list[tuple[int, int]] = []
     for ex in exclusions:
         i = ds.index_of(ex.subgroup)
         if ex.stream is None:
@@ -96,10 +100,15 @@ def exclusion_masks(ds: Dataset, exclusions: Iterable[Exclusion]) -> tuple[np.nd
         else:
             if ds.is_summary:
                 raise WorkbenchError("summary data hold no single readings: exclude the whole subgroup")
-            cells[i, ds.stream_index(ex.stream)] = True
-    rows = np.flatnonzero(cells.any(axis=1)) if cells.any() else np.empty(0, int)
-    if rows.size and ds.values is not None:
+            cell_list.append((i, ds.stream_index(ex.stream)))
+    if not cell_list:
+        return sub, np.broadcast_to(sub[:, None], (ds.m, k))
+    cells = np.zeros((ds.m, k), bool)
+    rows_i, cols_j = zip(*cell_list)
+    cells[list(rows_i), list(cols_j)] = True
+    if ds.values is not None:
         # a subgroup whose every reading is excluded is an excluded subgroup
+        rows = np.unique(rows_i)
         present = ~np.isnan(ds.values[rows])
         full = ~(present & ~cells[rows]).any(axis=1)
         sub[rows[full]] = True
@@ -114,7 +123,7 @@ def _summary_stats(ds: Dataset) -> C.SubgroupStats:
     return C.SubgroupStats(n=n, mean=ds.summary_mean.astype(float), range=rng.astype(float), sd=sd.astype(float))
 
 
-def _reading_stats(ds: Dataset, cell_only: np.ndarray) -> C.SubgroupStats:
+def _reading_stats(ds: Dataset, cells: np.ndarray, sub: np.ndarray) -> C.SubgroupStats:
     """Subgroup statistics with single-reading exclusions left out.
 
     The statistics of the raw readings are computed once per dataset and cached on it; only the
@@ -125,7 +134,10 @@ def _reading_stats(ds: Dataset, cell_only: np.ndarray) -> C.SubgroupStats:
     if raw is None:
         raw = C.subgroup_stats(ds.values)
         object.__setattr__(ds, "_raw_stats", raw)
-    rows = np.flatnonzero(cell_only.any(axis=1)) if cell_only.any() else np.empty(0, int)
+    if not cells.flags.writeable:  # a broadcast of the subgroup mask: no single-reading exclusions
+        return raw
+    cell_only = cells & ~sub[:, None]
+    rows = np.flatnonzero(cell_only.any(axis=1))
     if rows.size == 0:
         return raw
     part = C.subgroup_stats(np.where(cell_only[rows], np.nan, ds.values[rows]))
@@ -141,17 +153,19 @@ def _overall_sd(stats: C.SubgroupStats, use: np.ndarray, ranges_only: bool = Fal
     readings, and for summary data with ranges only sᵢ is estimated by Rᵢ/d2(nᵢ).
     """
     sel = use & (stats.n > 0)
-    n, mean = stats.n[sel].astype(float), stats.mean[sel]
-    sd = stats.sd[sel]
-    if ranges_only:
-        from .constants import d2, table
-        sd = stats.range[sel] / table(stats.n[sel], d2)
+    if not sel.all():
+        stats = C.SubgroupStats(n=stats.n[sel], mean=stats.mean[sel], range=stats.range[sel], sd=stats.sd[sel])
+    n = stats.n.astype(float)
     total = n.sum()
     if total < 2:
         return float("nan")
-    gm = np.sum(n * mean) / total
-    within = np.where(n > 1, (n - 1) * np.where(np.isnan(sd), 0.0, sd) ** 2, 0.0)
-    ss = within.sum() + np.sum(n * (mean - gm) ** 2)
+    sd = stats.sd
+    if ranges_only:
+        from .constants import d2, table
+        sd = stats.range / table(stats.n, d2)
+    gm = np.dot(n, stats.mean) / total
+    var = np.where(n > 1, sd, 0.0)
+    ss = np.dot(n - 1, var * var) + np.dot(n, (stats.mean - gm) ** 2)
     return float(np.sqrt(ss / (total - 1)))
 
 
@@ -193,7 +207,7 @@ def analyse(dataset: Dataset, settings: Settings = Settings(), exclusions: Itera
         if np.any(stats.n <= 0):
             raise WorkbenchError(f"{ds.path}: subgroup sizes must be positive")
     else:
-        stats = _reading_stats(ds, ex_cells & ~ex_sub[:, None])
+        stats = _reading_stats(ds, ex_cells, ex_sub)
     sigma_method = resolve_sigma(chart, ds, settings)
     known_mean = settings.known_mean
     individuals = chart == "imr" or (not ds.is_summary and ds.k == 1)

@@ -181,12 +181,7 @@ class Dataset:
 
     def index_of(self, label: str) -> int:
         """Position of a subgroup label; raises WorkbenchError when unknown."""
-        label = str(label)
-        if "_label_cache" in self.__dict__ or self.m < 5000:
-            idx = self._label_index().get(label)
-        else:  # a scan is cheaper than building the index for one lookup
-            hits = np.flatnonzero(self.labels == label)
-            idx = int(hits[0]) if hits.size else None
+        idx = self._label_index().get(str(label))
         if idx is None:
             raise WorkbenchError(f"no subgroup labelled {label!r} in {self.path}")
         return idx
@@ -197,12 +192,27 @@ class Dataset:
         except ValueError:
             raise WorkbenchError(f"no stream named {stream!r} in {self.path} (streams: {', '.join(self.streams)})") from None
 
-    def _label_index(self) -> dict[str, int]:
+    def _label_index(self) -> "_LabelIndex":
         cache = self.__dict__.get("_label_cache")
         if cache is None:
-            cache = {str(lab): i for i, lab in enumerate(self.labels.tolist())}
+            cache = _LabelIndex(self.labels)
             object.__setattr__(self, "_label_cache", cache)
         return cache
+
+
+class _LabelIndex:
+    """Label -> position, built once per dataset with a hash index (pandas) in C."""
+
+    def __init__(self, labels: np.ndarray):
+        import pandas as pd
+        self._index = pd.Index(labels.astype(str))
+
+    def get(self, label: str) -> int | None:
+        try:
+            loc = self._index.get_loc(label)
+        except KeyError:
+            return None
+        return int(loc) if isinstance(loc, (int, np.integer)) else None
 
 
 @dataclass(frozen=True)

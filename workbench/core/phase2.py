@@ -175,7 +175,11 @@ def extend(before: Analysis, dataset: Dataset, frozen: FrozenLimits | None = Non
     if frozen is None:
         raise WorkbenchError("new subgroups are judged against frozen limits: freeze the limits first")
     if dataset.m == m0:
-        return before if dataset is old else dataclasses.replace(before, dataset=dataset)
+        if dataset is old:
+            return before
+        after = dataclasses.replace(before, dataset=dataset)
+        _sizes_memo[after] = _sizes_of(before)
+        return after
     groups = getattr(before.signals, "_groups", None)
     if (incremental is False or (incremental is None and m0 < INCREMENTAL_FROM) or m0 == 0 or groups is None
             or before.chart in ("ewma", "cusum") or frozen.subgroups > m0):

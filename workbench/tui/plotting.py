@@ -103,6 +103,7 @@ def label_width(charts: list[ChartData], win: Window, cols: int) -> int:
 def build(data: ChartData, win: Window, width: int, height: int, lwidth: int, labels: np.ndarray,
           phase2: int | None, xticks: bool, token: int, caption: str = "") -> Picture:
     """Draw ``data`` over ``win`` at ``width`` x ``height`` cells (labels padded to ``lwidth``)."""
+    asked = (int(width), int(height))
     width, height = max(int(width), lwidth + 12), max(int(height), 4)
     cols = width - lwidth - 2
     tr: Trace = trace(data.values, data.codes, win, cols)
@@ -139,21 +140,22 @@ def build(data: ChartData, win: Window, width: int, height: int, lwidth: int, la
     ticks = axis_labels(data, win, cols)
     plt.yticks([v for v, _ in ticks] or [lo], [t.rjust(lwidth) for _, t in ticks] or [" " * lwidth])
     if xticks:
-        n = max(2, min(8, cols // 16))
+        longest = max(len(safe(labels[win.start])), len(safe(labels[win.stop - 1])))
+        n = max(2, min(8, (cols + 3) // (min(longest, 20) + 3)))
         pos = [int(round(i * (cols - 1) / (n - 1))) for i in range(n)]
-        room = max(4, (cols // n) - 2)
-        names = [safe(labels[first_position(p, win, cols)])[:room] for p in pos]
-        if len(names[-1]) > 1:  # keep the last label inside the frame
-            pos[-1] = max(pos[-1] - len(names[-1]) + 1, pos[-2] + len(names[-2]) + 1 if n > 1 else 0)
+        room = max(4, cols // n - 2)
+        names = [safe(labels[first_position(p, win, cols)])[-room:] for p in pos]
+        pos[-1] = max(cols - len(names[-1]), pos[-2] + len(names[-2]) + 1)  # the last label ends at the frame
         plt.xticks(pos, names)
     else:
         plt.xticks([], [])
     text = Text.from_ansi(plt.build(), no_wrap=True, end="")
-    return _picture(text, data, win, width, height, token, caption)
+    return _picture(text, data, win, asked, token, caption)
 
 
-def _picture(text: Text, data: ChartData, win: Window, width: int, height: int, token: int,
+def _picture(text: Text, data: ChartData, win: Window, asked: tuple[int, int], token: int,
              caption: str) -> Picture:
+    """The picture of a built chart; ``asked`` is the widget size it was drawn for."""
     plain = text.plain.split("\n")
     offsets, pos = [], 0
     for line in plain:
@@ -161,7 +163,7 @@ def _picture(text: Text, data: ChartData, win: Window, width: int, height: int, 
         pos += len(line) + 1
     top = next((i for i, ln in enumerate(plain) if "┌" in ln), 0)
     left = plain[top].find("┌") + 1 if plain else 0
-    right = plain[top].rfind("┐") if plain else width
+    right = plain[top].rfind("┐") if plain else asked[0]
     bottom = next((i for i in range(len(plain) - 1, -1, -1) if "└" in plain[i]), len(plain) - 1)
     title, avail = f" {data.title} ", right - left - 2
     cap = f" {caption} " if caption else ""
@@ -171,8 +173,9 @@ def _picture(text: Text, data: ChartData, win: Window, width: int, height: int, 
         start = offsets[top] + left + 1
         styled = Text(title, style="bold")
         text = text[:start] + styled + text[start + len(title):]
+    width = max(len(line) for line in plain) if plain else asked[0]
     return Picture(to_strips(text, width), tuple(text.plain.split("\n")), left, max(right - left, 1), top + 1,
-                   max(bottom - top - 1, 1), win, width, height, token)
+                   max(bottom - top - 1, 1), win, asked[0], asked[1], token)
 
 
 def to_strips(text: Text, width: int) -> tuple[Strip, ...]:

@@ -150,6 +150,9 @@ class BenchScreen(Screen):
         if msg.token != self.token or self.snap is None:
             return
         widgets = [self.query_one("#location", ControlChart), self.query_one("#spread", ControlChart)]
+        if any(w.size.width != pic.width or w.size.height != pic.height for w, pic in zip(widgets, msg.pictures)):
+            self.request_charts()  # the size changed while it was drawn
+            return
         for w, pic, data in zip(widgets, msg.pictures, self.snap.analysis.charts):
             w.show(pic, self.snap.marks.codes[data.name])
             w.set_cursor(self.cursor)
@@ -198,6 +201,10 @@ class BenchScreen(Screen):
             status = self.query_one("#status", LinesPanel)
             status.set_lines(status_lines(self.snap, self.cursor, self.app.busy, busy, status.size.width or 120,
                                           1 if self.has_class("wide") else 2))
+
+    @on(ControlChart.Resized)
+    def chart_resized(self) -> None:
+        self.request_charts()
 
     @on(ControlChart.Clicked)
     def chart_clicked(self, msg: ControlChart.Clicked) -> None:

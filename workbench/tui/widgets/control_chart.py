@@ -26,6 +26,12 @@ class ControlChart(PlotextPlot):
     """A control chart window; ``show()`` a picture, ``set_cursor()`` a position."""
 
     @dataclass
+    class Resized(Message):
+        """The chart's size changed: its picture must be rebuilt for the new size."""
+
+        chart: "ControlChart"
+
+    @dataclass
     class Clicked(Message):
         """A click on the chart picked a subgroup."""
 
@@ -96,6 +102,7 @@ class ControlChart(PlotextPlot):
 
     def on_resize(self) -> None:
         self._styled = None
+        self.post_message(self.Resized(self))
 
     def on_click(self, event: events.Click) -> None:
         pic = self.picture
