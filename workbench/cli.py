@@ -11,7 +11,7 @@ import sys
 from pathlib import Path
 from typing import NoReturn, Sequence
 
-from .core.model import CHART_KINDS, SIGMA_METHODS, Exclusion, LayoutRequest, Settings, Spec, WorkbenchError
+from .core.model import CHART_KINDS, SIGMA_METHODS, Exclusion, LayoutRequest, Settings, WorkbenchError
 
 
 class _Parser(argparse.ArgumentParser):

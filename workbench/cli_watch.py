@@ -167,9 +167,9 @@ def _open_workbench(args: argparse.Namespace) -> int:
     """``workbench watch CASE``: the workbench with watching switched on (checked for a freeze first)."""
     from .core.casefile import Case
     from .core.phase2 import not_frozen_message
-    case = Case.open(args.case, readonly=True)
-    if case.state.frozen is None:
-        raise WorkbenchError(not_frozen_message(args.case))
+    with Case.open(args.case, readonly=True) as case:
+        if case.state.frozen is None:
+            raise WorkbenchError(not_frozen_message(args.case))
     try:
         from .tui.app import run_app
     except ImportError:

@@ -6,7 +6,6 @@ so these tests check the tool's behaviour on the demo, not a published value.
 import json
 from pathlib import Path
 
-import numpy as np
 import pytest
 
 from workbench.core.analysis import analyse

@@ -156,3 +156,10 @@ def test_firing_rate_on_in_control_normal_data(rule):
     batches = hits.reshape(200, -1).mean(axis=1)
     se = batches.std(ddof=1) / math.sqrt(batches.size)
     assert abs(hits.mean() - EXACT[rule]) < 4 * se, (hits.mean(), EXACT[rule], se)
+
+
+def test_short_sequences_do_not_break_the_rules():
+    # fewer points than any window: nothing fires and nothing fails
+    for n in (0, 1, 2):
+        for rule in R.RULE_IDS:
+            assert fires(rule, [0.5] * n) == []

@@ -202,7 +202,6 @@ def analyse(dataset: Dataset, settings: Settings = Settings(), exclusions: Itera
         return _analyse_attribute(ds, settings, excl, chart, ex_sub, ex_cells, phase2, warnings)
 
     if ds.is_summary:
-        used = None
         stats = _summary_stats(ds)
         if np.any(stats.n <= 0):
             raise WorkbenchError(f"{ds.path}: subgroup sizes must be positive")
@@ -258,6 +257,7 @@ def analyse(dataset: Dataset, settings: Settings = Settings(), exclusions: Itera
         sigma_within=float(sigma), sigma_overall=sigma_overall, center=float(center), n=stats.n,
         charts=tuple(charts), signals=signals, excluded_subgroups=ex_sub,
         excluded_cells=None if ds.is_summary else ex_cells, warnings=tuple(warnings), phase2_start=phase2,
+        frozen=frozen,
     )
 
 

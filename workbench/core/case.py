@@ -21,7 +21,8 @@ from .model import CHART_KINDS, SIGMA_METHODS, Exclusion, FrozenLimits, Settings
 FORMAT = "workbench.case"
 VERSION = 1
 DEFAULT_CAUSES = ("people", "machine", "method", "material", "measurement", "environment")
-EVENT_KINDS = ("created", "settings", "exclude", "restore", "note", "signal", "freeze", "unfreeze", "causes")
+EVENT_KINDS = ("created", "settings", "exclude", "restore", "note", "signal", "freeze", "unfreeze", "causes",
+               "data-appended")
 LIMIT_EVENTS = ("created", "settings", "exclude", "restore", "freeze", "unfreeze")
 """Events that change the limits and so record them (before and after)."""
 MARKS = ("explained", "no-cause-found", "open")
@@ -173,6 +174,9 @@ class CaseState:
     """Number of events."""
     created_by: str = ""
     created_time: str = ""
+    seen: Mapping[str, Any] | None = None
+    """Phase II: the last ``data-appended`` payload since the current freeze (subgroups, rows,
+    size_bytes, sha256), or None when nothing new has been judged yet."""
 
     def signal_state(self, key: str) -> str:
         """open | explained | no-cause-found | excluded (an exclusion answers it)."""
@@ -197,17 +201,18 @@ class _Builder:
     seq: int = 0
     created_by: str = ""
     created_time: str = ""
+    seen: dict | None = None
 
     @classmethod
     def of(cls, s: CaseState) -> "_Builder":
         return cls(s.settings, dict(s.exclusion_info), {e.key: e for e in s.exclusions}, list(s.notes),
                    dict(s.signal_states), s.frozen, s.causes, s.first_limits, s.limits, s.head_hash, s.seq,
-                   s.created_by, s.created_time)
+                   s.created_by, s.created_time, dict(s.seen) if s.seen else None)
 
     def state(self) -> CaseState:
         return CaseState(self.settings, tuple(sorted(self.targets.values(), key=exclusion_order)), dict(self.info),
                          tuple(self.notes), dict(self.marks), self.frozen, tuple(self.causes), self.first_limits,
-                         self.limits, self.head, self.seq, self.created_by, self.created_time)
+                         self.limits, self.head, self.seq, self.created_by, self.created_time, self.seen)
 
     def apply(self, ev: Event) -> None:
         where, p = f"event {ev.seq}", ev.payload
@@ -268,6 +273,20 @@ class _Builder:
                 raise WorkbenchError(f"{where}: the limits are not frozen")
             _str(p.get("reason"), where, "reason", empty=False)
             self.frozen = None
+            self.seen = None
+        elif k == "data-appended":
+            if self.frozen is None:
+                raise WorkbenchError(f"{where}: new data are judged only against frozen limits")
+            new = {}
+            for name in ("subgroups", "rows", "size_bytes"):
+                v = p.get(name)
+                if not isinstance(v, int) or isinstance(v, bool) or v < 0:
+                    raise WorkbenchError(f"{where}: {name} must be a whole number")
+                if self.seen is not None and v < self.seen[name]:
+                    raise WorkbenchError(f"{where}: {name} went down from {self.seen[name]} to {v}")
+                new[name] = v
+            new["sha256"] = _str(p.get("sha256"), where, "sha256", empty=False)
+            self.seen = new
         if ev.limits_after is not None:
             if k == "created":
                 self.first_limits = ev.limits_after
@@ -285,6 +304,7 @@ _PAYLOAD_KEYS = {
     "signal": ({"key", "state"}, {"note"}),
     "freeze": ({"frozen"}, set()),
     "unfreeze": ({"reason"}, set()),
+    "data-appended": ({"subgroups", "rows", "size_bytes", "sha256"}, {"signals"}),
 }
 
 
@@ -461,6 +481,10 @@ def describe(ev: Event) -> str:
         return f"limits frozen ({p['frozen'].get('subgroups')} subgroups in Phase I)"
     if ev.kind == "unfreeze":
         return f"limits unfrozen: {q(p['reason'])}"
+    if ev.kind == "data-appended":
+        sig = p.get("signals") or []
+        return (f"new data judged: {p['subgroups']} subgroups, {p['rows']} rows, {p['size_bytes']} bytes"
+                + (f"; new signals {', '.join(q(k) for k in sig)}" if sig else "; no new signal"))
     return "case created"
 
 

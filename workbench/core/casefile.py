@@ -208,6 +208,10 @@ class Case:
         except WorkbenchError as exc:  # an action that does not apply: say why, without the event number
             raise WorkbenchError(f"cannot {_VERBS[kind]}: {str(exc).removeprefix(f'event {ev.seq}: ')}") from None
 
+    def append_event(self, kind: str, payload: dict, author: str | None = None) -> Event:
+        """Append an event that does not change the limits (e.g. ``data-appended``), written at once."""
+        return self._append(kind, payload, author)
+
     def _append(self, kind: str, payload: dict, author: str | None = None, before: dict | None = None,
                 after: dict | None = None, data_bytes: int | None = None) -> Event:
         ev, state = self._event(kind, payload, author, before, after,
@@ -352,7 +356,7 @@ class Case:
 
 _VERBS = {"exclude": "exclude", "restore": "restore", "note": "add the note", "signal": "mark the signal",
           "settings": "change the setup", "freeze": "freeze the limits", "unfreeze": "unfreeze the limits",
-          "causes": "change the cause list", "created": "create the case"}
+          "causes": "change the cause list", "created": "create the case", "data-appended": "record the new data"}
 
 
 def _body(seq: int, kind: str, payload: dict, author: str, before: dict | None, after: dict | None,

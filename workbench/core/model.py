@@ -489,6 +489,8 @@ class Analysis:
     warnings: tuple[str, ...]
     phase2_start: int | None = None
     """Position where Phase II (frozen limits) starts, or None."""
+    frozen: "FrozenLimits | None" = None
+    """The frozen limits the analysis was judged against (also when no Phase II point exists yet)."""
 
     def readings(self) -> np.ndarray:
         """All non-excluded readings (1-D, NaN removed); empty for summary and count data."""

@@ -22,7 +22,6 @@ JQT 16(4): the run rules, evaluated as in :mod:`workbench.core.rules`.
 from __future__ import annotations
 
 import dataclasses
-import json
 import time
 import weakref
 from dataclasses import dataclass
@@ -42,8 +41,6 @@ INCREMENTAL_FROM = 500
 """Below this many subgroups a full ``analyse()`` is as cheap as the tail window."""
 DATA_APPENDED = "data-appended"
 """Trail event kind for "new rows seen" (used when the case module knows it)."""
-SEEN_SUFFIX = ".seen"
-"""Until the trail has that event: what was seen is kept beside the case (``x.case.json.seen``)."""
 
 
 def not_frozen_message(case_path: Any) -> str:
@@ -111,14 +108,6 @@ def _slice(ds: Dataset, start: int) -> Dataset:
         ds, labels=ds.labels[start:], values=cut(ds.values), summary_n=cut(ds.summary_n),
         summary_mean=cut(ds.summary_mean), summary_range=cut(ds.summary_range), summary_sd=cut(ds.summary_sd),
         times=cut(ds.times), extras={})
-
-
-def _signal(g: Group, i: int, labels: np.ndarray) -> Signal:
-    pts = g.points[g.point_ptr[i]:g.point_ptr[i + 1]]
-    first = int(pts[0])
-    return Signal(g.chart, g.rule, first, int(pts[-1]), tuple(pts.tolist()),
-                  tuple(g.fired[g.fired_ptr[i]:g.fired_ptr[i + 1]].tolist()), f"{g.chart}/{g.rule}/{labels[first]}",
-                  g.description)
 
 
 def _extend_group(g: Group, rule: R.Rule, f: R.Firing, new: np.ndarray, s: int, labels: np.ndarray) -> Group:
@@ -270,10 +259,6 @@ class Seen:
         return cls(int(p["subgroups"]), int(p["rows"]), int(p["size_bytes"]), str(p["sha256"]))
 
 
-def seen_path(case_path: Path) -> Path:
-    return Path(case_path).with_name(Path(case_path).name + SEEN_SUFFIX)
-
-
 def _freeze_event(case: Any):
     return next((ev for ev in reversed(case.events) if ev.kind == "freeze"), None)
 
@@ -288,28 +273,17 @@ def last_seen(case: Any) -> Seen | None:
             break
         if ev.kind == DATA_APPENDED:
             return Seen.from_payload(ev.payload)
-    try:
-        d = json.loads(seen_path(case.path).read_text(encoding="utf-8"))
-        return Seen.from_payload(d) if d.get("freeze") == fz.hash else None
-    except (OSError, ValueError, KeyError, TypeError, AttributeError):
-        return None
+    return None
 
 
 def record_seen(case: Any, seen: Seen, signals: list[str] | tuple[str, ...] = ()) -> str | None:
-    """Record what was seen: a trail event when the case knows ``data-appended``, else beside the case.
+    """Record what was seen as a ``data-appended`` event in the trail.
 
-    Returns "trail", "beside the case", or None when the case is read-only."""
-    from . import case as case_mod
-    from .casefile import atomic_write, canonical_json
+    Returns "trail", or None when the case is read-only."""
     if case.readonly:
         return None
-    if DATA_APPENDED in case_mod.EVENT_KINDS:
-        append = getattr(case, "append_event", None) or case._append
-        append(DATA_APPENDED, seen.payload(signals))
-        return "trail"
-    fz = _freeze_event(case)
-    atomic_write(seen_path(case.path), canonical_json({**seen.payload(signals), "freeze": fz.hash}) + b"\n")
-    return "beside the case"
+    case.append_event(DATA_APPENDED, seen.payload(signals))
+    return "trail"
 
 
 # ---- watching a case ------------------------------------------------------------------------

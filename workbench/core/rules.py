@@ -161,13 +161,13 @@ def fire(rule_id: str, x, c, s, lcl, ucl, same_side: int = 8, z=None) -> tuple[n
         return (cu == same_side) | (cd == same_side), None
     if rule_id == "trend":
         d = np.diff(x)
-        inc = np.concatenate(([False], d > 0))
-        dec = np.concatenate(([False], d < 0))
+        inc = np.concatenate(([False], d > 0))[:x.size]
+        dec = np.concatenate(([False], d < 0))[:x.size]
         cu, cd = _two_sided(inc, dec, 5)
         return (cu == 5) | (cd == 5), None
     if rule_id == "alternating":
         d = np.diff(x)
-        alt = np.concatenate(([False, False], (d[1:] * d[:-1]) < 0))
+        alt = np.concatenate(([False, False], (d[1:] * d[:-1]) < 0))[:x.size]
         return _window_count(alt, 12) == 12, None
     if rule_id == "hugging":
         return _window_count(np.abs(z) < 1.0, 15) == 15, None

@@ -87,6 +87,11 @@ class SignalTable(Sequence):
             self._gid = self._local = self.first = self.last = np.empty(0, np.int64)
         self._cache: dict[int, Signal] = {}
 
+    @property
+    def groups(self) -> tuple[Group, ...]:
+        """The per-(chart, rule) groups the table was built from."""
+        return tuple(self._groups)
+
     def __len__(self) -> int:
         return int(self._gid.size)
 

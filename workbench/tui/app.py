@@ -64,6 +64,8 @@ class WorkbenchApp(Flows, App[int]):
             self.post_message(OpenNeedsMapping(exc))
         except (WorkbenchError, OSError) as exc:
             self.post_message(OpenFailed(str(exc)))
+        except Exception as exc:  # a fault, not bad input: still one line, never a dead screen
+            self.post_message(OpenFailed(f"cannot open {req.path}: {type(exc).__name__}: {exc}"))
         else:
             progress("drawing the charts", 1.0)
             self.post_message(SessionReady(session, session.snapshot()))

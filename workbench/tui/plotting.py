@@ -15,8 +15,18 @@ from rich.text import Text
 from textual.strip import Strip
 from textual_plotext.plot import Plot
 
+import plotext._utility as _plotext_utility
+
 from .view import EXCLUDED, NORMAL, OPEN, REVIEWED, safe
 from .window import Trace, Window, column_of, first_position, limit_trace, trace
+
+def _no_duplicates(data):
+    """Order-preserving de-duplication: plotext's own uses a set, whose order follows the per-process
+    string hash seed, so the same chart could draw differently from one run to the next."""
+    return list(dict.fromkeys(data))
+
+
+_plotext_utility.no_duplicates = _no_duplicates
 
 # The project's own glyphs and colours (RGB, so terminal themes do not remap them).
 GLYPH = {NORMAL: "•", OPEN: "▲", REVIEWED: "◆", EXCLUDED: "○"}
@@ -64,6 +74,17 @@ class Picture:
 def rgb(colour: tuple[int, int, int]) -> str:
     """A rich colour string for an RGB triple."""
     return "rgb({},{},{})".format(*colour)
+
+
+def tick_layout(cols: int, label_at, most: int = 8) -> tuple[list[int], list[str]]:
+    """Tick columns and labels that fit ``cols`` without touching: each label is centred on its tick
+    (plotext's placement), the first starts at the left edge and the last ends at the right edge."""
+    width = min(max(len(label_at(0)), len(label_at(cols - 1)), 4), 20)
+    n = max(2, min(most, (cols + 2) // (width + 2)))
+    room = max(4, min(width, cols // n - 2))
+    half = room // 2
+    pos = sorted({int(round(half + i * (cols - 1 - 2 * half) / (n - 1))) for i in range(n)})
+    return pos, [label_at(p)[-room:] for p in pos]
 
 
 def short(v: float) -> str:
@@ -140,12 +161,7 @@ def build(data: ChartData, win: Window, width: int, height: int, lwidth: int, la
     ticks = axis_labels(data, win, cols)
     plt.yticks([v for v, _ in ticks] or [lo], [t.rjust(lwidth) for _, t in ticks] or [" " * lwidth])
     if xticks:
-        longest = max(len(safe(labels[win.start])), len(safe(labels[win.stop - 1])))
-        n = max(2, min(8, (cols + 3) // (min(longest, 20) + 3)))
-        pos = [int(round(i * (cols - 1) / (n - 1))) for i in range(n)]
-        room = max(4, cols // n - 2)
-        names = [safe(labels[first_position(p, win, cols)])[-room:] for p in pos]
-        pos[-1] = max(cols - len(names[-1]), pos[-2] + len(names[-2]) + 1)  # the last label ends at the frame
+        pos, names = tick_layout(cols, lambda c: safe(labels[first_position(c, win, cols)]))
         plt.xticks(pos, names)
     else:
         plt.xticks([], [])

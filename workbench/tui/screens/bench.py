@@ -65,6 +65,8 @@ class BenchScreen(Screen):
         self.cursor = 0
         self.window: Window | None = None
         self.token = 0
+        self.auto_window = True
+        """One subgroup per plot column, refitted on resize, until the user zooms or pans."""
         self._enabled: tuple = ()
 
     def compose(self) -> ComposeResult:
@@ -116,8 +118,11 @@ class BenchScreen(Screen):
         sizes = [(w.size.width, w.size.height) for w in widgets]
         if sizes[0][0] <= 0 or sizes[0][1] <= 0:
             return
-        if self.window is None:
-            self.window = window_at(self.cursor, self._default_size(), snap.dataset.m)
+        if self.window is None or self.auto_window:
+            size = self._default_size()
+            if self.window is None or self.window.size != min(size, snap.dataset.m):
+                start = self.window.start if self.window is not None else self.cursor
+                self.window = follow(window_at(start, size, snap.dataset.m), self.cursor, snap.dataset.m)
         win = self.window
         self.token += 1
         self._build(self.token, snap, win, sizes)
@@ -289,11 +294,13 @@ class BenchScreen(Screen):
         m = self.snap.dataset.m
         size = max(MIN_WINDOW, min(m, int(round(self.window.size * factor))))
         self.window = window_at(self.cursor - size // 2, size, m)
+        self.auto_window = False
         self.request_charts()
 
     def action_whole(self) -> None:
         if self.snap is not None:
             self.window = Window(0, self.snap.dataset.m)
+            self.auto_window = False
             self.request_charts()
 
     def action_pan(self, direction: int) -> None:

@@ -6,6 +6,7 @@ from rich.text import Text
 from textual import on, work
 from textual.app import ComposeResult
 from textual.binding import Binding
+from textual.message import Message
 from textual.containers import Horizontal, VerticalScroll
 from textual.screen import Screen
 from textual.widgets import DataTable, Static
@@ -35,6 +36,12 @@ class StreamPlot(PlotextPlot):
     def render(self) -> Text:
         return self.picture if self.picture is not None else Text("drawing…", style="dim")
 
+    def on_resize(self) -> None:
+        self.post_message(StreamPlot.Resized())
+
+    class Resized(Message):
+        """The plot changed size."""
+
 
 class BreakdownScreen(Screen):
     """Per-stream view of the subgroup at ``position``."""
@@ -56,6 +63,7 @@ class BreakdownScreen(Screen):
         self.snap: Snapshot | None = None
         self.result: Breakdown | None = None
         self.token = 0
+        self._fresh = True
 
     def compose(self) -> ComposeResult:
         yield Static(id="bd-head", markup=False)
@@ -78,16 +86,19 @@ class BreakdownScreen(Screen):
         table.focus()
 
     def show_snapshot(self, snap: Snapshot) -> None:
+        first = self.snap is None
         self.snap = snap
         self.position = max(0, min(self.position, snap.dataset.m - 1))
-        self.compute()
+        self.compute(fresh=first)
         self.compare(snap)
 
     # -- background work ------------------------------------------------------------------------
 
-    def compute(self) -> None:
+    def compute(self, fresh: bool = True) -> None:
+        """Recompute the breakdown; ``fresh`` (a new subgroup) puts the table cursor on its driver."""
         if self.snap is None:
             return
+        self._fresh = fresh
         self.token += 1
         self.query_one("#bd-head", Static).update(self._head())
         self._breakdown(self.token, self.snap, self.position)
@@ -115,7 +126,8 @@ class BreakdownScreen(Screen):
 
     @work(thread=True, exclusive=True, group="stream-plot")
     def _plot(self, token: int, snap: Snapshot, p: int, row: int, width: int, height: int) -> None:
-        self.post_message(Computed("plot", token, neighbourhood_text(snap.dataset, p, row, width, height)))
+        self.post_message(Computed("plot", token, (neighbourhood_text(snap.dataset, p, row, width, height),
+                                                   (width, height))))
 
     @on(Computed)
     def computed(self, msg: Computed) -> None:
@@ -126,7 +138,11 @@ class BreakdownScreen(Screen):
             return
         if msg.what == "plot":
             plot = self.query_one(StreamPlot)
-            plot.picture = msg.result
+            picture, size = msg.result
+            if size != (plot.size.width, plot.size.height):
+                self.plot()  # resized while it was drawn
+                return
+            plot.picture = picture
             plot.refresh()
         elif msg.what == "breakdown":
             self.result = msg.result
@@ -163,11 +179,15 @@ class BreakdownScreen(Screen):
             z = fmt(r.z, 2)
             share = f"{100 * r.range_share:.0f}%" if r.role else ""
             name = Text(safe(r.stream), style="bold" if r.stream == bd.driver else "")
-            table.add_row(name, fmt(r.reading), fmt(r.deviation, 3), fmt(r.stream_mean), fmt(r.stream_sd, 3),
+            dev = fmt(r.deviation, 3)
+            table.add_row(name, fmt(r.reading), ("+" + dev) if np.isfinite(r.deviation) and r.deviation > 0 else dev, fmt(r.stream_mean), fmt(r.stream_sd, 3),
                           Text(z, style="bold" if np.isfinite(r.z) and abs(r.z) >= 2 else ""), r.role, share,
                           "yes" if r.excluded else "", key=r.stream)
         if bd.rows:
+            if self._fresh and bd.driver is not None:
+                keep = next(i for i, r in enumerate(bd.rows) if r.stream == bd.driver)
             table.move_cursor(row=min(max(keep, 0), len(bd.rows) - 1))
+        self._fresh = False
         t = Text()
         t.append("Verdict: ", style="bold")
         t.append(safe(bd.verdict))
@@ -182,6 +202,9 @@ class BreakdownScreen(Screen):
 
     def on_resize(self) -> None:
         self.call_after_refresh(self.plot)
+
+    def on_stream_plot_resized(self) -> None:
+        self.plot()
 
     # -- actions ------------------------------------------------------------------------------
 

@@ -7,7 +7,7 @@ from textual_plotext.plot import Plot
 
 from workbench.core.model import Dataset
 
-from ..plotting import PHASE, short
+from ..plotting import PHASE, short, tick_layout
 from ..view import safe
 
 NEIGHBOURS = 10
@@ -43,9 +43,14 @@ def neighbourhood_text(ds: Dataset, p: int, row: int, width: int, height: int) -
     if finite.size:
         ticks = [float(finite.min()), float(finite.max())]
         plt.yticks(ticks, [short(v) for v in ticks])
-    ticks = [lo, p, hi - 1] if hi - 1 > p > lo else [p]
-    room = max(6, width // 3 - 3)
-    plt.xticks(ticks, [safe(ds.labels[i])[-room:] for i in ticks])
+    cols = width - 8
+    span = hi - lo
+
+    def label_at(c: int) -> str:
+        return safe(ds.labels[lo + min(span - 1, int(round(c * (span - 1) / max(cols - 1, 1))))])
+
+    cpos, names = tick_layout(cols, label_at, most=4)
+    plt.xticks([lo - 0.5 + (c + 0.5) * span / cols for c in cpos], names)
     plt.xlim(lo - 0.5, hi - 0.5)
     text = Text.from_ansi(plt.build(), no_wrap=True, end="")
     if 0 <= row < ds.k:
