@@ -72,7 +72,7 @@ def add_setup_options(p: argparse.ArgumentParser) -> None:
     e.add_argument("--ewma-l", type=_float, metavar="L", help="EWMA limit width in sigmas (default 2.962)")
     e.add_argument("--ewma-asymptotic", action="store_true", default=None, help="asymptotic EWMA limits")
     e.add_argument("--cusum-k", type=_float, metavar="K", help="CUSUM reference value in sigmas (default 0.5)")
-    e.add_argument("--cusum-h", type=_float, metavar="H", help="CUSUM decision interval in sigmas (default 4.77)")
+    e.add_argument("--cusum-h", type=_float, metavar="H", help="CUSUM decision interval in sigmas (default 5; 4 is faster with more false alarms)")
     e.add_argument("--head-start", type=_float, metavar="H0", help="CUSUM fast initial response head start")
     e.add_argument("--laney", choices=("auto", "on", "off"), help="Laney p'/u' correction (default auto)")
 

@@ -135,9 +135,13 @@ def test_cusum_in_control_arl(h, arl0):
     assert cusum_arl_one_sided(0.5, h) / 2 == pytest.approx(arl0, rel=0.01)
 
 
-def test_cusum_defaults_are_the_arl_370_design():
+def test_cusum_defaults_are_the_published_h5_design():
+    # issue 6: k = 0.5 with h = 4 or 5; we default to h = 5, in-control ARL ≈ 465 (Montgomery, tabular CUSUM
+    # chapter [from memory]; the Markov-chain test in this file recomputes that ARL)
+    from workbench.core.model import Settings
     params = inspect.signature(cusum_chart).parameters
-    assert (params["k"].default, params["h"].default) == (0.5, 4.77)
+    assert (params["k"].default, params["h"].default) == (0.5, 5.0)
+    assert (Settings().cusum_k, Settings().cusum_h) == (0.5, 5.0)
 
 
 # ---- EWMA -----------------------------------------------------------------------------------------

@@ -8,11 +8,22 @@ from workbench.tui.app import WorkbenchApp
 from workbench.tui.session import OpenRequest
 
 
+async def workers_done(app) -> None:
+    """Wait for the running workers; one that a newer request replaced (cancelled) is fine."""
+    from textual.worker import WorkerCancelled
+    for worker in list(app.workers):
+        if worker.is_running:
+            try:
+                await worker.wait()
+            except WorkerCancelled:
+                pass
+
+
 async def settle(pilot) -> None:
     """Wait until no worker runs and every message they posted has been handled (no sleeps)."""
     app = pilot.app
     for _ in range(100):
-        await app.workers.wait_for_complete()
+        await workers_done(app)
         await pilot.pause()
         if not any(w.is_running for w in app.workers):
             await pilot.pause()

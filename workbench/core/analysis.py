@@ -241,7 +241,12 @@ def analyse(dataset: Dataset, settings: Settings = Settings(), exclusions: Itera
     if not np.isfinite(sigma):
         warnings.append("sigma could not be estimated (too few readings): no limits")
     elif sigma == 0:
-        warnings.append("all readings are identical: sigma is 0 and the limits collapse onto the centre line")
+        if np.isfinite(sigma_overall := _overall_sd(stats, use, ds.is_summary and ds.summary_sd is None)) \
+                and sigma_overall > 0:
+            warnings.append("no spread within subgroups: sigma is 0 and the limits collapse onto the centre line "
+                            "(readings rounded to the gauge resolution, or copied values?)")
+        else:
+            warnings.append("all readings are identical: sigma is 0 and the limits collapse onto the centre line")
     if ds.m < 2:
         warnings.append("only one subgroup: limits from a single subgroup are not meaningful")
     elif phase2 is None and ds.m < MIN_PHASE1_SUBGROUPS and frozen is None:

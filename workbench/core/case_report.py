@@ -64,7 +64,15 @@ def _signal_rows(state: CaseState, analysis: Analysis | None) -> tuple[list[dict
                      **_state_fields(state, s.key)})
     for key in state.signal_states:
         if key not in seen:
+            seen.add(key)
             rows.append({"key": key, "subgroups": "", "detected": analysis is None, **_state_fields(state, key)})
+    # signals answered by an exclusion: the excluded points left the rule sequences, so the signal is
+    # no longer detected, but the review lists it with the exclusion that answered it
+    for ex_key, info in state.exclusion_info.items():
+        if info.signal and info.signal not in seen:
+            seen.add(info.signal)
+            rows.append({"key": info.signal, "subgroups": ex_key, "detected": False,
+                         **_state_fields(state, info.signal)})
     return rows, hidden
 
 

@@ -259,7 +259,7 @@ class Settings:
     ewma_l: float = 2.962
     ewma_asymptotic: bool = False
     cusum_k: float = 0.5
-    cusum_h: float = 4.77
+    cusum_h: float = 5.0
     cusum_head_start: float = 0.0
     laney: str = "auto"
     """Attribute charts: auto | on | off (Laney p'/u' correction)."""
@@ -515,6 +515,12 @@ class Analysis:
         spec = self.settings.spec
         if spec is None or (spec.lsl is None and spec.usl is None):
             return None
+        if self.dataset.counts is not None:
+            raise WorkbenchError("capability against a specification applies to measured values, not to counts "
+                                 "(for count data the chart's centre, e.g. the proportion defective, is the measure)")
+        if self.dataset.values is None:
+            raise WorkbenchError("capability needs the individual readings; summary data hold only subgroup "
+                                 "statistics (export the readings, or remove --lsl/--usl)")
         from .capability import assess
         return assess(self.readings(), self.sigma_within, self.sigma_method, spec,
                       open_signals=len(self.signals))

@@ -157,22 +157,22 @@ def describe_mapping(a: Analysis) -> str:
 def report_text(a: Analysis, states: dict | None = None, width: int = 100) -> str:
     """A readable terminal summary."""
     ds = a.dataset
-    L = [f"workbench report — {ds.path}",
-         f"data      {ds.rows} rows, {ds.m} subgroups, {ds.k} stream(s): {', '.join(ds.streams[:12])}"
+    L = [f"workbench report — {_p(ds.path)}",
+         f"data      {ds.rows} rows, {ds.m} subgroups, {ds.k} stream(s): {_p(', '.join(ds.streams[:12]))}"
          + (" …" if ds.k > 12 else ""),
          f"sha256    {ds.sha256}",
-         f"mapping   {describe_mapping(a)}"]
+         f"mapping   {_p(describe_mapping(a))}"]
     for n in ds.notices:
-        L.append(f"notice    {n}")
+        L.append(f"notice    {_p(n)}")
     L.append(f"chart     {a.chart}   sigma (within) {fmt(a.sigma_within)} by {sigma_label(a)}   "
              f"overall SD {fmt(a.sigma_overall)}")
     if a.phase2_start is not None:
-        L.append(f"phase     limits frozen; Phase II starts at subgroup {ds.labels[a.phase2_start]} "
+        L.append(f"phase     limits frozen; Phase II starts at subgroup {_p(ds.labels[a.phase2_start])} "
                  f"(position {a.phase2_start})")
     L.append("limits")
     L.extend(_limits_lines(a))
     for w in a.warnings:
-        L.append(f"warning   {w}")
+        L.append(f"warning   {_p(w)}")
     L.append("")
     L.append(f"signals   {len(a.signals)}")
     for s in a.signals[:MAX_TEXT_SIGNALS]:
@@ -181,21 +181,21 @@ def report_text(a: Analysis, states: dict | None = None, width: int = 100) -> st
             v = states.get(s.key)
             st = f"  [{getattr(v, 'state', v) or 'open'}]"
         span = ds.labels[s.first] if s.first == s.last else f"{ds.labels[s.first]} … {ds.labels[s.last]}"
-        L.append(f"  {s.chart:<5} {s.rule:<14} {span}  — {s.description}{st}")
+        L.append(f"  {s.chart:<5} {s.rule:<14} {_p(span)}  — {s.description}{st}")
     if len(a.signals) > MAX_TEXT_SIGNALS:
         L.append(f"  … {len(a.signals) - MAX_TEXT_SIGNALS} more (use --format json for all)")
     if a.exclusions:
         L.append("")
-        L.append(f"excluded  {len(a.exclusions)}: " + ", ".join(e.key for e in a.exclusions[:30])
+        L.append(f"excluded  {len(a.exclusions)}: " + ", ".join(_p(e.key) for e in a.exclusions[:30])
                  + (" …" if len(a.exclusions) > 30 else ""))
     cmp_ = a.comparison
     if cmp_ is not None:
         L.append("")
-        L.append("streams   " + "  ".join(f"{s} {fmt(m)}±{fmt(sd, 3)}" for s, m, sd in
+        L.append("streams   " + "  ".join(f"{_p(s)} {fmt(m)}±{fmt(sd, 3)}" for s, m, sd in
                                           zip(cmp_.streams[:8], cmp_.means, cmp_.sds)))
         L.append(f"          ANOVA F {fmt(cmp_.anova_f)} p {fmt(cmp_.anova_p)}; Kruskal–Wallis H "
                  f"{fmt(cmp_.kruskal_h)} p {fmt(cmp_.kruskal_p)}")
-        L.append(f"          {cmp_.advice}")
+        L.append(f"          {_p(cmp_.advice)}")
     cap = a.capability
     if cap is not None:
         from .capability_report import capability_text
@@ -205,8 +205,14 @@ def report_text(a: Analysis, states: dict | None = None, width: int = 100) -> st
 
 
 def _md_escape(text: str) -> str:
+    from .case_report import md
+    return md(text)
+
+
+def _p(text: Any) -> str:
+    """Text from the data (path, labels, stream names) made printable for a terminal."""
     from .case import printable
-    return printable(str(text)).replace("|", "\\|")
+    return printable(str(text))
 
 
 def report_markdown(a: Analysis, states: dict | None = None) -> str:
@@ -216,7 +222,7 @@ def report_markdown(a: Analysis, states: dict | None = None) -> str:
     L = [f"# Control chart review — {esc(ds.path)}", "",
          "## Data", "",
          "| item | value |", "|---|---|",
-         f"| file | `{esc(ds.path)}` |", f"| SHA-256 | `{ds.sha256}` |", f"| rows | {ds.rows} |",
+         f"| file | {esc(ds.path)} |", f"| SHA-256 | `{ds.sha256}` |", f"| rows | {ds.rows} |",
          f"| subgroups | {ds.m} |", f"| streams | {esc(', '.join(ds.streams))} |",
          f"| mapping | {esc(describe_mapping(a))} |", ""]
     for n in ds.notices:

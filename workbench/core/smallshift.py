@@ -28,8 +28,8 @@ EWMA_DESIGNS: tuple[tuple[float, float, float], ...] = (
 """(lambda, L, in-control ARL) for asymptotic limits: Lucas, J. M. & Saccucci, M. S. (1990),
 Technometrics 32(1) [from memory]; the tests recompute each in-control ARL by a Markov chain."""
 
-CUSUM_DEFAULTS = {"k": 0.5, "h": 4.77}
-"""k = 0.5, h = 4.77 give an in-control ARL of about 370; h = 4 about 168, h = 5 about 465
+CUSUM_DEFAULTS = {"k": 0.5, "h": 5.0}
+"""Default k = 0.5, h = 5: in-control ARL about 465 (h = 4 about 168, h = 4.77 about 370)
 (Montgomery, Introduction to SQC, tabular CUSUM chapter [from memory]; checked by a Markov chain)."""
 
 
@@ -119,7 +119,7 @@ def ewma_chart(x: np.ndarray, target: float, sigma_x: np.ndarray | float, exclud
 
 
 def cusum_chart(x: np.ndarray, target: float, sigma_x: np.ndarray | float, excluded: np.ndarray,
-                k: float = 0.5, h: float = 4.77, head_start: float = 0.0) -> tuple[ChartResult, CusumInfo]:
+                k: float = 0.5, h: float = 5.0, head_start: float = 0.0) -> tuple[ChartResult, CusumInfo]:
     """Two-sided tabular CUSUM with optional fast-initial-response head start.
 
     C⁺_i = max(0, x_i − (mu0 + K) + C⁺_{i−1}),  C⁻_i = max(0, (mu0 − K) − x_i + C⁻_{i−1}),

@@ -15,6 +15,7 @@ import time
 from pathlib import Path
 
 import numpy as np
+from textual.worker import WorkerCancelled
 
 
 def generated_dataset(subgroups: int, streams: int = 5, seed: int = 7):
@@ -31,47 +32,73 @@ def generated_dataset(subgroups: int, streams: int = 5, seed: int = 7):
 
 
 async def _settle(pilot) -> None:
-    """Wait until the key's messages, any worker it started and the repaint are done.
+    """Wait until every message queue is empty and no worker runs, then composite the screen.
 
-    No idle-waiting sleeps (unlike ``Pilot.press``): the clock sees only the work the key causes.
+    Only nodes with pending messages are waited on (``Pilot.press`` instead pings every widget
+    and sleeps until the CPU is idle), so the clock sees the work the key causes, not the harness.
     """
     app = pilot.app
-    for _ in range(100):
-        await pilot._wait_for_screen()
+    for _ in range(1000):
+        for worker in [w for w in app.workers if w.is_running]:
+            try:
+                await worker.wait()
+            except WorkerCancelled:  # replaced by a newer request
+                pass
+        nodes = [n for n in (app, *app.screen.walk_children(with_self=True)) if not n._message_queue.empty()]
+        if nodes:
+            done = [asyncio.Event() for _ in nodes]
+            for node, event in zip(nodes, done):
+                node.call_later(event.set)
+            for event in done:
+                await event.wait()
+            continue
+        screen = app.screen
+        if screen._dirty_widgets or screen._repaint_required or screen._layout_required:
+            screen._on_timer_update()  # composite now (it may queue after-refresh callbacks)
+            continue
         if not any(w.is_running for w in app.workers):
             break
-        await app.workers.wait_for_complete()
-    await pilot._wait_for_screen()
-    app.screen._on_timer_update()
 
 
 async def _press(pilot, key: str) -> None:
     from textual import events
+    from textual._context import active_app
+    active_app.set(pilot.app)  # two apps share this task: name the one being pressed
     event = events.Key(key, None)
     event.set_sender(pilot.app)
-    pilot.app._driver.send_message(event)
+    await pilot.app._post_message(event)  # what the driver does, without its thread hop
     await _settle(pilot)
 
 
-async def _time_presses(app, size: tuple[int, int], presses: int, key: str, ready) -> list[float]:
-    times = []
+async def _time_presses(app, empty, size: tuple[int, int], presses: int, key: str, ready) -> tuple[list, list]:
+    """Press ``key`` in both apps, alternately, so both see the same machine load."""
+    app_times, empty_times = [], []
     async with app.run_test(size=size) as pilot:
-        for _ in range(200):
-            await _settle(pilot)
+        for _ in range(600):
+            await pilot.pause()
             if ready(app):
                 break
             await asyncio.sleep(0.05)
-        await _settle(pilot)
-        for _ in range(3):  # warm-up
-            await _press(pilot, key)
-        for _ in range(presses):
-            t = time.perf_counter()
-            await _press(pilot, key)
-            times.append((time.perf_counter() - t) * 1000.0)
-        close = getattr(app, "close_session", None)
-        if close:
-            close()
-    return times
+        else:
+            raise RuntimeError("the workbench did not open its bench")
+        async with empty.run_test(size=size) as other:
+            await other.pause()  # started and composed (not timed)
+            await pilot.pause()
+            for _ in range(3):  # warm-up
+                await _press(pilot, key)
+                await _press(other, key)
+            start = app.screen.cursor
+            for _ in range(presses):
+                for p, times in ((pilot, app_times), (other, empty_times)):
+                    t = time.perf_counter()
+                    await _press(p, key)
+                    times.append((time.perf_counter() - t) * 1000.0)
+                    if p.app.screen._dirty_widgets:
+                        raise RuntimeError("the screen was not repainted when the clock stopped")
+            if app.screen.cursor != start + presses or other.app.count != presses + 3:
+                raise RuntimeError("not every key press was handled while timing")
+        app.close_session()
+    return app_times, empty_times
 
 
 def _empty_app():
@@ -84,9 +111,11 @@ def _empty_app():
         def compose(self):
             yield Static("0", id="n")
 
+        count = 0
+
         def action_step(self) -> None:
-            w = self.query_one("#n", Static)
-            w.update(str(int(str(w.render())) + 1))
+            self.count += 1
+            self.query_one("#n", Static).update(str(self.count))
 
     return Empty()
 
@@ -108,8 +137,7 @@ def measure_keypress(subgroups: int = 200_000, presses: int = 20, size: tuple[in
             s = a.screen
             return isinstance(s, BenchScreen) and s.snap is not None and s.query_one("#location").picture is not None
 
-        app_times = asyncio.run(_time_presses(app, size, presses, "right", ready))
-    empty_times = asyncio.run(_time_presses(_empty_app(), size, presses, "right", lambda a: True))
+        app_times, empty_times = asyncio.run(_time_presses(app, _empty_app(), size, presses, "right", ready))
     app_ms, empty_ms = statistics.median(app_times), statistics.median(empty_times)
     return {"app_ms": round(app_ms, 3), "empty_ms": round(empty_ms, 3),
             "ratio": round(app_ms / empty_ms, 3) if empty_ms > 0 else float("inf"),

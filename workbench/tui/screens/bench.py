@@ -174,7 +174,8 @@ class BenchScreen(Screen):
 
     # -- the cursor ---------------------------------------------------------------------------
 
-    def move_to(self, position: int) -> None:
+    def move_to(self, position: int, jump: bool = False) -> None:
+        """Put the cursor on ``position``; ``jump`` (to a signal) also scrolls the signals list to it."""
         snap = self.snap
         if snap is None:
             return
@@ -184,16 +185,22 @@ class BenchScreen(Screen):
         if win != self.window:
             self.window = win
             self.request_charts()
-        self._update_cursor_views()
+        self._update_cursor_views(jump)
 
-    def _update_cursor_views(self) -> None:
+    def _update_cursor_views(self, jump: bool = True) -> None:
+        """Every view of the cursor: the charts' column, the signals list, the subgroup panel."""
+        if self.snap is None:
+            return
+        for w in self.query(ControlChart):
+            w.set_cursor(self.cursor)
+        self._update_side(jump)
+
+    def _update_side(self, jump: bool) -> None:
         snap, p = self.snap, self.cursor
         if snap is None:
             return
-        for w in self.query(ControlChart):
-            w.set_cursor(p)
         row = snap.marks.row_at(p)
-        self.query_one(SignalList).select(row)
+        self.query_one(SignalList).select(row, scroll=jump)
         self.query_one(SubgroupPanel).show(snap, p)
         self.update_status()
         enabled = tuple(self.check_action(a, ()) for a in sorted(WRITES | {"next_signal", "prev_signal"}))
@@ -219,7 +226,7 @@ class BenchScreen(Screen):
     def signal_picked(self, msg: SignalList.Picked) -> None:
         row = self.snap.marks.rows[msg.index] if self.snap else None
         if row is not None and row.anchor >= 0:
-            self.move_to(row.anchor)
+            self.move_to(row.anchor, jump=True)
 
     # -- actions ----------------------------------------------------------------------------
 
@@ -264,7 +271,7 @@ class BenchScreen(Screen):
         if row is None:
             self.notify(none_words, timeout=3)
             return
-        self.move_to(self.snap.marks.rows[row].anchor)
+        self.move_to(self.snap.marks.rows[row].anchor, jump=True)
 
     def action_next_signal(self) -> None:
         if self.snap:
@@ -286,7 +293,7 @@ class BenchScreen(Screen):
         else:
             index = lst.selected + step
         index = max(0, min(index, snap.marks.current - 1))
-        self.move_to(snap.marks.rows[index].anchor)
+        self.move_to(snap.marks.rows[index].anchor, jump=True)
 
     def action_zoom(self, factor: float) -> None:
         if self.snap is None or self.window is None:

@@ -6,9 +6,11 @@ cursor position — no plotext, nothing proportional to the series or even to th
 """
 from __future__ import annotations
 
+from bisect import bisect_right
 from dataclasses import dataclass
 
 import numpy as np
+from rich.segment import Segment
 from rich.style import Style
 from textual import events
 from textual.geometry import Region
@@ -46,6 +48,7 @@ class ControlChart(PlotextPlot):
         self.placeholder = "drawing…"
         self._base = Style()
         self._styled: tuple[Strip, ...] | None = None
+        self._runs: dict[int, tuple[list, list[int], bool]] = {}
 
     def show(self, picture: Picture | None, codes: np.ndarray | None = None) -> None:
         self.picture, self.codes, self._styled = picture, codes, None
@@ -82,7 +85,33 @@ class ControlChart(PlotextPlot):
             width = self.size.width
             self._styled = tuple(s.apply_style(self._base).crop_extend(0, width, self._base)
                                  for s in self.picture.strips)
+            self._runs = {}
         return self._styled or ()
+
+    def _cursor_strip(self, y: int, x: int) -> Strip:
+        """Line ``y`` with cell ``x`` reversed, splitting only the segment that holds it."""
+        strip = self._styled[y]
+        runs = self._runs.get(y)
+        if runs is None:
+            segs = list(strip)
+            starts, pos, simple = [], 0, True
+            for seg in segs:
+                starts.append(pos)
+                pos += seg.cell_length
+                simple = simple and seg.cell_length == len(seg.text)
+            runs = self._runs[y] = (segs, starts, simple)
+        segs, starts, simple = runs
+        if not simple or x >= strip.cell_length:  # wide characters: the general (slower) way
+            left, mid, right = strip.divide((x, x + 1, strip.cell_length))[:3]
+            return Strip.join((left, mid.apply_style(CURSOR), right))
+        i = bisect_right(starts, x) - 1
+        text, style, _ = segs[i]
+        k = x - starts[i]
+        parts = [Segment(text[:k], style)] if k else []
+        parts.append(Segment(text[k], (style or Style()) + CURSOR))
+        if k + 1 < len(text):
+            parts.append(Segment(text[k + 1:], style))
+        return Strip(segs[:i] + parts + segs[i + 1:], strip.cell_length)
 
     def render_line(self, y: int) -> Strip:
         pic = self.picture
@@ -92,13 +121,10 @@ class ControlChart(PlotextPlot):
         lines = self._lines()
         if y >= len(lines):
             return Strip.blank(self.size.width, self._base)
-        strip = lines[y]
         col = self.cursor_column()
         if col is not None and pic.top <= y < pic.top + pic.rows:
-            x = pic.left + col
-            left, mid, right = strip.divide((x, x + 1, strip.cell_length))[:3]
-            strip = Strip.join((left, mid.apply_style(CURSOR), right))
-        return strip
+            return self._cursor_strip(y, pic.left + col)
+        return lines[y]
 
     def on_resize(self) -> None:
         self._styled = None

@@ -7,12 +7,15 @@ from __future__ import annotations
 
 import textwrap
 
+from rich.cells import cell_len
 from rich.segment import Segment
 from rich.style import Style
+from textual.geometry import Region
 from textual.strip import Strip
 from textual.widget import Widget
 
 Run = tuple[str, Style | None]
+DIFF = True
 
 BOLD = Style(bold=True)
 DIM = Style(dim=True)
@@ -57,21 +60,43 @@ class LinesPanel(Widget):
         super().__init__(id=id, classes=classes)
         self.lines: list[list[Run]] = []
         self._base = Style()
+        self._styles: dict[Style | None, Style] = {}
 
     def set_lines(self, lines: Lines) -> None:
-        self.lines = lines.done()
-        self.refresh()
+        """Show ``lines``; only the lines that differ from what is shown are repainted."""
+        rows, old = lines.done(), self.lines
+        if rows == old:
+            return
+        self.lines = rows
+        if DIFF and len(rows) == len(old) and self.size.width:
+            width = self.size.width
+            self.refresh(*[Region(0, y, width, 1) for y, (a, b) in enumerate(zip(old, rows)) if a != b])
+        else:
+            self.refresh()
 
     def plain(self) -> str:
         return "\n".join("".join(t for t, _ in row) for row in self.lines)
 
     def render_lines(self, crop):
-        self._base = self.rich_style
+        base = self.rich_style
+        if base != self._base:
+            self._base, self._styles = base, {}
         return super().render_lines(crop)
+
+    def _style(self, style: Style | None) -> Style:
+        st = self._styles.get(style)
+        if st is None:
+            st = self._styles[style] = self._base + style if style is not None else self._base
+        return st
 
     def render_line(self, y: int) -> Strip:
         base, width = self._base, self.size.width
         if y >= len(self.lines):
             return Strip.blank(width, base)
-        segs = [Segment(text, base + style if style is not None else base) for text, style in self.lines[y]]
-        return Strip(segs).crop_extend(0, width, base)
+        segs = [Segment(text, self._style(style)) for text, style in self.lines[y]]
+        length = sum(cell_len(text) for text, _ in self.lines[y])
+        if length < width:
+            segs.append(Segment(" " * (width - length), base))
+            length = width
+        strip = Strip(segs, length)
+        return strip.crop(0, width) if length > width else strip

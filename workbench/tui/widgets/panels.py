@@ -29,11 +29,11 @@ def subgroup_lines(snap: Snapshot, p: int, width: int = 44) -> Lines:
     out.add(safe(raw), BOLD).add(f"  ({p + 1:,} of {ds.m:,})", DIM).end()
     if ds.times is not None and ds.layout.time and ds.layout.time != ds.layout.subgroup:
         out.add(f"time {safe(str(ds.times[p])[:19].replace('T', ' '))}", DIM).end()
-    for c in a.charts:
+    for i, c in enumerate(a.charts):
         code = int(snap.marks.codes[c.name][p])
-        out.add(f"{c.name:<5}").add(f"{fmt(c.values[p]):>10}", BOLD)
-        out.add(f" {GLYPH[code]}" if code != NORMAL else "  ", GLYPH_STYLE[code])
-        out.add(f"  {_limit_at(c.lcl, p)} … {_limit_at(c.ucl, p)}", DIM).end()
+        out.add(" · " if i else "", DIM).add(f"{c.name} ").add(fmt(c.values[p]), BOLD)
+        out.add(f" {GLYPH[code]}" if code != NORMAL else "", GLYPH_STYLE[code])
+    out.end()
     row = snap.marks.row_at(p)
     if row is not None:
         r = snap.marks.rows[row]
@@ -62,7 +62,8 @@ def _readings(out: Lines, snap: Snapshot, p: int, width: int) -> None:
         hi, lo = int(np.nanargmax(vals)), int(np.nanargmin(vals))
     mean = float(np.mean(row[live])) if live.any() else float("nan")
     name_w = min(max([len(safe(s)) for s in ds.streams] + [6]), 16)
-    out.add(f"{'stream':<{name_w}} {'reading':>10} {'− mean':>9}", UNDERLINE_DIM).end()
+    rng = f"  range {fmt(row[hi] - row[lo])}" if hi is not None else ""
+    out.add(f"{'stream':<{name_w}} {'reading':>10} {'− mean':>9}{rng}", UNDERLINE_DIM).end()
     for j, name in enumerate(ds.streams):
         out.add(f"{safe(name)[:name_w]:<{name_w}} ")
         out.add(f"{fmt(row[j]):>10}", BOLD if j in (hi, lo) else None)
@@ -76,9 +77,6 @@ def _readings(out: Lines, snap: Snapshot, p: int, width: int) -> None:
             info = st.exclusion_info.get(f"{ds.labels[p]}:{name}")
             out.add(" excluded" + (f": {safe(info.reason)}" if info else ""), ITALIC)
         out.end()
-    if hi is not None:
-        out.add(f"range {fmt(row[hi] - row[lo])} set by {safe(ds.streams[hi])} {MAX_GLYPH} and "
-                f"{safe(ds.streams[lo])} {MIN_GLYPH}", DIM).end()
 
 
 class SubgroupPanel(LinesPanel, can_focus=False):
@@ -90,10 +88,10 @@ class SubgroupPanel(LinesPanel, can_focus=False):
 
 def status_lines(snap: Snapshot, p: int, saving: bool, busy: str = "", width: int = 120,
                  lines: int = 2) -> Lines:
-    """Chart kind, sigma and method, limits, frozen | counts, case file name and saved state, position.
+    """Chart kind, sigma and method, limits (at subgroup ``p``), frozen | counts, case file, saved state.
 
-    Two lines (or one when ``lines`` is 1); a piece that does not fit its line is left out, the
-    least important (the position) first, and numbers get fewer digits when the bar is narrow.
+    Two lines (or one when ``lines`` is 1); a piece that does not fit its line is left out, and
+    numbers get fewer digits when the bar is narrow.
     """
     a, mk = snap.analysis, snap.marks
     narrow = width < 100
@@ -115,8 +113,7 @@ def status_lines(snap: Snapshot, p: int, saving: bool, busy: str = "", width: in
         [("open ", None), (str(mk.open_count), GLYPH_STYLE[OPEN] if mk.open_count else BOLD),
          (f" · {words[0]} {mk.explained_count} · {words[1]} {mk.no_cause_count} · {words[2]} {mk.excluded_count}",
           None)],
-        [(safe(snap.case_name), BOLD), (" ", None), state],
-        [(f"{'' if narrow else 'subgroup '}{p + 1:,}/{a.dataset.m:,}", None)]]
+        [(safe(snap.case_name), BOLD), (" ", None), state]]
     out = Lines()
     for line in ([setup + case] if lines == 1 else [setup, case]):
         used = 0

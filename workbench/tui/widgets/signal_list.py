@@ -11,9 +11,11 @@ from textual.message import Message
 from textual.scroll_view import ScrollView
 from textual.strip import Strip
 
-from ..plotting import COLOUR, GLYPH, rgb
+from ..plotting import COLOUR, GLYPH
 from ..view import EXCLUDED, OPEN, REVIEWED, STATE_WORDS, SignalRow
 
+BOLD, DIM, REVERSE = Style(bold=True), Style(dim=True), Style(reverse=True)
+GLYPH_STYLE = {cls: Style(bold=True, color="rgb({},{},{})".format(*c)) for cls, c in COLOUR.items()}
 LINES = 2
 """Lines per signal: what and where, then the rule in words."""
 STATE_CLASS = {"open": OPEN, "explained": REVIEWED, "no-cause-found": REVIEWED, "excluded": EXCLUDED}
@@ -32,6 +34,8 @@ class SignalList(ScrollView, can_focus=False):
         super().__init__(id=id)
         self.rows: tuple[SignalRow, ...] = ()
         self.selected: int | None = None
+        self._base = Style()
+        self._cache: dict[tuple[int, int, bool], Strip] = {}
 
     def set_rows(self, rows: tuple[SignalRow, ...]) -> None:
         self.rows = rows
@@ -40,46 +44,60 @@ class SignalList(ScrollView, can_focus=False):
         self.virtual_size = Size(self.size.width, LINES * len(rows))
         self.refresh()
 
-    def select(self, index: int | None) -> None:
+    def select(self, index: int | None, scroll: bool = True) -> None:
+        """Highlight row ``index``; ``scroll`` brings it into view (plain cursor steps do not scroll)."""
         if index == self.selected:
+            if scroll and index is not None:
+                self._scroll_to(index)
             return
         old, self.selected = self.selected, index
-        before = self.scroll_offset.y
-        if index is not None:
-            self.scroll_to_region(Region(0, LINES * index, 1, LINES), animate=False, force=True, immediate=True)
-        if self.scroll_offset.y != before:
-            self.refresh()
+        if scroll and index is not None and self._scroll_to(index):
             return
         for i in (old, index):
             if i is not None:
                 self.refresh_lines(LINES * i, LINES)
 
+    def _scroll_to(self, index: int) -> bool:
+        """Scroll row ``index`` into view; True when that scrolled (and so repainted) the list."""
+        before = self.scroll_offset.y
+        self.scroll_to_region(Region(0, LINES * index, 1, LINES), animate=False, force=True, immediate=True)
+        if self.scroll_offset.y != before:
+            self.refresh()
+            return True
+        return False
+
     def line_parts(self, row: SignalRow, part: int) -> list[tuple[str, Style | None]]:
         """The segments of line ``part`` (0: what and where, 1: the rule in words) of one row."""
         if part == 1:
-            return [("    " + row.words, Style(dim=True))]
+            return [("    " + row.words, DIM)]
         cls = STATE_CLASS.get(row.state, OPEN)
-        glyph = Style(color=rgb(COLOUR[cls]), bold=True)
         where = row.label + (f" +{row.length - 1}" if row.length > 1 else "")
         state = STATE_WORDS.get(row.state, row.state)
-        return [(GLYPH[cls] + " ", glyph), (f"{row.chart:<5} ", Style(bold=True)), (f"{where:<20} ", None),
-                (state, Style(bold=row.state == "open", dim=row.state != "open"))]
+        return [(GLYPH[cls] + " ", GLYPH_STYLE[cls]), (f"{row.chart:<5} ", BOLD), (f"{where:<20} ", None),
+                (state, BOLD if row.state == "open" else DIM)]
+
+    def render_lines(self, crop):
+        self._base = self.rich_style
+        self._cache.clear()
+        return super().render_lines(crop)
 
     def render_line(self, y: int) -> Strip:
         index, part = divmod(y + self.scroll_offset.y, LINES)
-        width = self.size.width
-        base = self.rich_style
+        width, base = self.size.width, self._base
         if index >= len(self.rows):
             return Strip.blank(width, base)
         chosen = index == self.selected
-        segs = []
-        for text, style in self.line_parts(self.rows[index], part):
-            st = base + style if style is not None else base
-            if chosen:
-                st = st + Style(reverse=True)
-            segs.append(Segment(text, st))
-        fill = base + Style(reverse=True) if chosen else base
-        return Strip(segs).crop_extend(0, width, fill)
+        key = (index, part, chosen)
+        strip = self._cache.get(key)
+        if strip is None:
+            extra = REVERSE if chosen else None
+            segs = []
+            for text, style in self.line_parts(self.rows[index], part):
+                st = base + style if style is not None else base
+                segs.append(Segment(text, st + extra if extra else st))
+            strip = Strip(segs).crop_extend(0, width, base + extra if extra else base)
+            self._cache[key] = strip
+        return strip
 
     def on_resize(self, event: events.Resize) -> None:
         self.virtual_size = Size(event.size.width, LINES * len(self.rows))
