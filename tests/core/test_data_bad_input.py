@@ -180,3 +180,16 @@ def test_count_above_size_is_refused_by_p_charts_but_allowed_for_u(tmp_path):
     with pytest.raises(WorkbenchError, match=r":3:rejected: count 120 is larger than the sample size 90 \(a p chart"):
         analyse(ds, Settings(chart="p"))
     assert analyse(ds, Settings(chart="u")).chart == "u"
+
+
+def test_unterminated_short_last_line_is_left_out_with_a_notice(tmp_path):
+    # a logger still writing its last line: the complete rows load, the partial one waits (issue 7)
+    import hashlib
+    f = tmp_path / "growing.csv"
+    body = b"time,a,b,c\n1,1,2,3\n2,2,3,4\n"
+    f.write_bytes(body + b"3,1,2")
+    ds = load(f)
+    assert ds.m == 2 and any("still being written" in n for n in ds.notices)
+    assert ds.size_bytes == len(body) and ds.sha256 == hashlib.sha256(body).hexdigest()  # hashlib as reference
+    f.write_bytes(body + b"3,1,2,3")  # complete but unterminated: a normal last line
+    assert load(f).m == 3

@@ -236,7 +236,7 @@ def analyse(dataset: Dataset, settings: Settings = Settings(), exclusions: Itera
         _subgroup_warnings(chart, stats, warnings)
 
     if chart in ("ewma", "cusum"):
-        base[0] = _small_shift(chart, base[0], center, settings)
+        base[0] = _small_shift(chart, base[0], center, settings, ds.labels, warnings)
 
     if not np.isfinite(sigma):
         warnings.append("sigma could not be estimated (too few readings): no limits")
@@ -281,14 +281,20 @@ def _subgroup_warnings(chart: str, stats: C.SubgroupStats, warnings: list[str]) 
         warnings.append(f"{single} subgroup(s) hold a single reading and have no range or SD")
 
 
-def _small_shift(chart: str, loc: ChartResult, center: float, settings: Settings) -> ChartResult:
+def _small_shift(chart: str, loc: ChartResult, center: float, settings: Settings, labels: np.ndarray,
+                 warnings: list[str]) -> ChartResult:
     from . import smallshift
     sigma_x = loc.sigma
     if chart == "ewma":
         return smallshift.ewma_chart(loc.values, center, sigma_x, loc.excluded, settings.ewma_lambda,
                                      settings.ewma_l, settings.ewma_asymptotic)
-    res, _info = smallshift.cusum_chart(loc.values, center, sigma_x, loc.excluded, settings.cusum_k,
-                                        settings.cusum_h, settings.cusum_head_start)
+    res, info = smallshift.cusum_chart(loc.values, center, sigma_x, loc.excluded, settings.cusum_k,
+                                       settings.cusum_h, settings.cusum_head_start)
+    for sg in info.signals:  # the side, the estimated change point and the new mean (Montgomery)
+        way = "upward (C⁺ above H)" if sg.side == "upper" else "downward (C⁻ above H)"
+        warnings.append(f"CUSUM signal {way} at subgroup {labels[sg.position]}: estimated change from subgroup "
+                        f"{labels[sg.change_point]} ({sg.run_length} points), estimated new mean {sg.mean:.6g} "
+                        f"({sg.shift:+.2f}σ)")
     return res
 
 
@@ -346,7 +352,8 @@ def _apply_rules(ds: Dataset, charts: list[ChartResult], settings: Settings, kin
         for rid, f in firings.items():
             rule = rs.rule(rid)
             fired_c = np.searchsorted(f.index, f.fired)
-            groups.append(group_firings(c.name, rid, rule.words, fired_c, f.index, f.members, rule.window))
+            words = "cumulative sum beyond the decision interval H" if c.name == "cusum" else rule.words
+            groups.append(group_firings(c.name, rid, words, fired_c, f.index, f.members, rule.window))
     return out, SignalTable(groups, ds.labels)
 
 

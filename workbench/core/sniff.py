@@ -123,6 +123,12 @@ def read_table(path: str | os.PathLike, text_columns: Callable[[list[str]], Iter
         notices = notices + ("numbers use a decimal comma",)
     names, header = _header(shown, text, delim)
     keep = _leading_zero_columns(text[:SNIFF_BYTES], delim, names, set(text_columns(names)))
+    cut = _partial_last_line(raw, delim, len(names))
+    if cut is not None:  # a logger is still writing the last line: leave it until it is complete
+        raw = raw[:cut]
+        digest = _Digest(raw)
+        notices = notices + ("the last line has no end of line and too few fields (still being written?): "
+                             "left out until it is complete",)
     source = (raw, encoding, delim, len(names), header)
     try:
         with warnings.catch_warnings():
@@ -130,7 +136,7 @@ def read_table(path: str | os.PathLike, text_columns: Callable[[list[str]], Iter
             warnings.simplefilter("ignore", pd.errors.DtypeWarning)
             # A UTF-8 file is handed over by path so that pandas may parse a large one in
             # parallel chunks; other encodings go through the bytes already read.
-            source_arg = shown if encoding != "cp1252" else io.BytesIO(raw)
+            source_arg = shown if encoding != "cp1252" and cut is None else io.BytesIO(raw)
             frame = pd.read_csv(
                 source_arg, sep=delim, header=0, names=names, engine="c", encoding=encoding,
                 dtype={c: str for c in keep}, keep_default_na=False, na_values=[""], decimal=decimal,
@@ -150,6 +156,19 @@ def read_table(path: str | os.PathLike, text_columns: Callable[[list[str]], Iter
                        or delims != (len(frame) + 1) * (len(names) - 1) or _has_na(frame.iloc[:, -1])):
         table.lines  # noqa: B018
     return _finish(table)
+
+
+def _partial_last_line(raw: bytes, delim: str, nfields: int) -> int | None:
+    """Offset to cut at when the file ends in an unterminated line with too few fields, else None."""
+    if not raw or raw.endswith((b"\n", b"\r")):
+        return None
+    start = raw.rfind(b"\n") + 1
+    if start == 0:
+        return None  # the header itself
+    last = raw[start:]
+    if b'"' in last or last.count(delim.encode()) >= nfields - 1:
+        return None
+    return start
 
 
 class _Digest(threading.Thread):
