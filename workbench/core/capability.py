@@ -192,6 +192,12 @@ def _ci(fn, value: float | None, *args) -> Interval | None:
     return None if value is None else fn(value, *args)
 
 
+POOR_FIT_AD = 2.5
+"""Anderson–Darling A² of the chosen non-normal model above which no verdict is given.  The 1%
+critical values of A² for the normal, Weibull and gamma families with estimated parameters lie near
+1.0 (Stephens, in D'Agostino & Stephens 1986, ch. 4 [from memory]); 2.5 is a clear misfit for any."""
+
+
 def assess(readings: np.ndarray, sigma_within: float | None, sigma_method: str, spec: Spec,
            open_signals: int = 0) -> Capability:
     """Capability of the readings against ``spec`` (see the module docstring for the methods).
@@ -297,6 +303,13 @@ def assess(readings: np.ndarray, sigma_within: float | None, sigma_method: str, 
     else:
         head, hv, hci = ("Ppk", p.worst, ppk_ci) if p.worst is not None else (None, None, None)
     why = "the readings show no spread, so the indices are undefined"
+    chosen = next((c for c in fit.candidates if c.name == fit.distribution), None) if fit is not None else None
+    if method != "normal" and chosen is not None and chosen.ad_statistic > POOR_FIT_AD:
+        warn.append(f"Even the best-fitting model ({chosen.name}) describes the readings poorly (Anderson\u2013Darling "
+                    f"A\u00b2 = {chosen.ad_statistic:.3g}; above about {POOR_FIT_AD:g} no common family fits): look "
+                    "for outliers, mixed streams or open signals before trusting any index.")
+        head, hv, hci = None, None, None
+        why = "no fitted model describes the readings well enough to judge the tails"
     text, meets, bound_meets = words.verdict(head, hv, hci, req, conf, kind, why)
     cautions = [words.ESTIMATES, words.interval_caution(method, label)]
     if method != "normal":

@@ -34,6 +34,8 @@ def subgroup_lines(snap: Snapshot, p: int, width: int = 44) -> Lines:
         out.add(" · " if i else "", DIM).add(f"{c.name} ").add(fmt(c.values[p]), BOLD)
         out.add(f" {GLYPH[code]}" if code != NORMAL else "", GLYPH_STYLE[code])
     out.end()
+    if ds.values is not None:
+        _readings(out, snap, p, width)
     row = snap.marks.row_at(p)
     if row is not None:
         r = snap.marks.rows[row]
@@ -43,8 +45,6 @@ def subgroup_lines(snap: Snapshot, p: int, width: int = 44) -> Lines:
     if info is not None:
         out.wrapped(f"excluded: {safe(info.reason)} ({safe(info.cause) if info.cause else 'no category'}, "
                     f"{safe(info.author)})", width, ITALIC, "  ")
-    if ds.values is not None:
-        _readings(out, snap, p, width)
     for note in st.notes:
         if note.target == raw or note.target.startswith(raw + ":"):
             out.wrapped(f"note: {safe(note.text)} ({safe(note.author)})", width, None, "  ")

@@ -48,16 +48,16 @@ class SignalList(ScrollView, can_focus=False):
         """Highlight row ``index``; ``scroll`` brings it into view (plain cursor steps do not scroll)."""
         if index == self.selected:
             if scroll and index is not None:
-                self._scroll_to(index)
+                self._bring_into_view(index)
             return
         old, self.selected = self.selected, index
-        if scroll and index is not None and self._scroll_to(index):
+        if scroll and index is not None and self._bring_into_view(index):
             return
         for i in (old, index):
             if i is not None:
                 self.refresh_lines(LINES * i, LINES)
 
-    def _scroll_to(self, index: int) -> bool:
+    def _bring_into_view(self, index: int) -> bool:
         """Scroll row ``index`` into view; True when that scrolled (and so repainted) the list."""
         before = self.scroll_offset.y
         self.scroll_to_region(Region(0, LINES * index, 1, LINES), animate=False, force=True, immediate=True)
