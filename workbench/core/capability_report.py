@@ -113,11 +113,12 @@ def _spec_line(cap: Capability) -> str:
 
 
 def _index_rows(cap: Capability) -> list[tuple[str, str, str, str, str, str]]:
-    pairs = (("cp", "pp"), ("cpl", "ppl"), ("cpu", "ppu"), ("cpk", "ppk"), ("cpm", "k"))
+    # Cpm uses the overall SD and the target, and k is the centring ratio: they go in the overall column
+    pairs = (("cp", "pp"), ("cpl", "ppl"), ("cpu", "ppu"), ("cpk", "ppk"), (None, "cpm"), (None, "k"))
     rows = []
     for a, b in pairs:
-        rows.append((LABEL[a], num(getattr(cap, a)), _bound(getattr(cap, f"{a}_ci", None), cap.ci_kind),
-                     LABEL[b], num(getattr(cap, b)), _bound(getattr(cap, f"{b}_ci", None), cap.ci_kind)))
+        left = (LABEL[a], num(getattr(cap, a)), _bound(getattr(cap, f"{a}_ci", None), cap.ci_kind)) if a else ("", "", "")
+        rows.append(left + (LABEL[b], num(getattr(cap, b)), _bound(getattr(cap, f"{b}_ci", None), cap.ci_kind)))
     return rows
 
 

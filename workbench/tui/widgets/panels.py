@@ -34,6 +34,10 @@ def subgroup_lines(snap: Snapshot, p: int, width: int = 44) -> Lines:
         out.add(" · " if i else "", DIM).add(f"{c.name} ").add(fmt(c.values[p]), BOLD)
         out.add(f" {GLYPH[code]}" if code != NORMAL else "", GLYPH_STYLE[code])
     out.end()
+    info = st.exclusion_info.get(raw)
+    if info is not None:
+        out.wrapped(f"excluded: {safe(info.reason)} ({safe(info.cause) if info.cause else 'no category'}, "
+                    f"{safe(info.author)})", width, ITALIC, "  ")
     if ds.values is not None:
         _readings(out, snap, p, width)
     row = snap.marks.row_at(p)
@@ -41,10 +45,6 @@ def subgroup_lines(snap: Snapshot, p: int, width: int = 44) -> Lines:
         r = snap.marks.rows[row]
         out.add("signal ", BOLD).add(f"{r.chart} {r.rule} · {STATE_WORDS.get(r.state, r.state)}").end()
         out.wrapped(r.words, width, DIM, "  ")
-    info = st.exclusion_info.get(raw)
-    if info is not None:
-        out.wrapped(f"excluded: {safe(info.reason)} ({safe(info.cause) if info.cause else 'no category'}, "
-                    f"{safe(info.author)})", width, ITALIC, "  ")
     for note in st.notes:
         if note.target == raw or note.target.startswith(raw + ":"):
             out.wrapped(f"note: {safe(note.text)} ({safe(note.author)})", width, None, "  ")
