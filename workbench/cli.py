@@ -144,6 +144,10 @@ def cmd_report(args: argparse.Namespace) -> int:
         case = Case.open(args.path, readonly=True)
         for n in case.notices:
             print(f"workbench: {n}", file=sys.stderr)
+        from .core.case_format import check_data
+        status = check_data(case.data, case.path)
+        if not status.usable:
+            return _report_case_without_data(case, args, status.message)
         ds = case.load_dataset()
         a = case.analyse(ds)
         states = case.state.signal_states
@@ -174,6 +178,28 @@ def cmd_report(args: argparse.Namespace) -> int:
     if args.fail_on_signal and open_signals(a, states):
         return 1
     return 0
+
+
+def _report_case_without_data(case, args: argparse.Namespace, why: str) -> int:
+    """The case part alone (trail, exclusions, notes, integrity) when its data are missing or changed.
+
+    Exit 1: the review is incomplete, but an auditor still gets the record and the reason."""
+    from .core import case_report
+    from .core.report import dumps
+    print(f"workbench: {why}: the data part of the report is left out", file=sys.stderr)
+    if args.format == "json":
+        out = dumps({"schema": "workbench.report/1", "data_unavailable": why,
+                     "case": case_report.case_report_json(case, None)}) + "\n"
+    elif args.format == "markdown":
+        out = f"> **Data unavailable:** {case_report.md(why)}. Limits cannot be recomputed.\n\n" + \
+            case_report.case_report_markdown(case, None)
+    else:
+        out = f"DATA UNAVAILABLE: {why}. Limits cannot be recomputed.\n\n" + case_report.case_report_text(case, None)
+    if args.output:
+        Path(args.output).write_text(out, encoding="utf-8")
+    else:
+        sys.stdout.write(out)
+    return 1
 
 
 def _default_settings_for(path: str) -> Settings | None:

@@ -118,3 +118,20 @@ def test_points_option_adds_labels_and_values(capsys):
     assert r["charts"][1]["values"][0] is None  # the first moving range is undefined
     _, out, _ = run(capsys, "report", str(DEMO / "tank_ph.csv"), "--format", "json")
     assert "labels" not in json.loads(out) and "values" not in json.loads(out)["charts"][0]
+
+
+def test_report_of_a_case_whose_data_changed_still_gives_the_record(capsys, tmp_path, monkeypatch):
+    import shutil
+    monkeypatch.chdir(tmp_path)
+    data = tmp_path / "f.csv"
+    shutil.copy(DEMO / "filler_line3.csv", data)
+    assert run(capsys, "case", "new", str(data), "-o", "c.case.json")[0] == 0
+    assert run(capsys, "case", "exclude", "c.case.json", "2026-03-03 15:30:H2", "--reason", "digit slip",
+               "--signal", "r/beyond-limits/2026-03-03 15:30")[0] == 0
+    code, out, _ = run(capsys, "report", "c.case.json", "--format", "markdown")
+    assert code == 0 and "r/beyond-limits/2026-03-03 15:30" in out  # answered signal listed
+    data.write_text(data.read_text().replace("499.8", "499.9", 1))
+    code, out, err = run(capsys, "report", "c.case.json", "--format", "markdown")
+    assert code == 1 and "Data unavailable" in out and "digit slip" in out and "has changed" in err
+    code, out, _ = run(capsys, "report", "c.case.json", "--format", "json")
+    assert code == 1 and json.loads(out)["data_unavailable"]
