@@ -19,6 +19,9 @@ def fires(rule, x, same_side=8, lcl=-3.0, ucl=3.0, excluded=None):
     return out[rule].fired.tolist()
 
 
+# Constructed sequences: the expected firings follow from the rule definitions in the issue and in
+# Nelson (1984) / Western Electric (1956) [definition]; zones in units of sigma with centre 0.
+
 # --- beyond-limits: strictly outside; a point exactly on a limit does not fire --------------------
 def test_beyond_limits_strict():
     assert fires("beyond-limits", [0, 3.0, -3.0, 3.0001, -3.5, 2.9]) == [3, 4]
@@ -125,6 +128,8 @@ def _alternating_probability(n_points: int) -> float:
     return 2 * row[-1] / math.factorial(n_points)
 
 
+# Exact per-point firing probabilities on iid N(0,1) points, derived from the pattern definitions of the
+# Western Electric Handbook (1956) and Nelson (1984) [definition]; Φ from scipy.stats.norm (reference library).
 P1, P2 = stats.norm.sf(1), stats.norm.sf(2)
 EXACT = {
     "beyond-limits": 2 * stats.norm.sf(3),                         # 2Φ(−3) [definition]
@@ -133,8 +138,8 @@ EXACT = {
     "same-side": 2 * 0.5 ** 9,                                     # Nelson run of 9
     "trend": 2 / math.factorial(6),                                # 2/6! [definition]
     "alternating": _alternating_probability(14),
-    "hugging": (1 - 2 * P1) ** 15,
-    "avoid-centre": (2 * P1) ** 8,
+    "hugging": (1 - 2 * P1) ** 15,                                 # 15 in a row with |z| < 1
+    "avoid-centre": (2 * P1) ** 8,                                 # 8 in a row with |z| > 1
 }
 
 

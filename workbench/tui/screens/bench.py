@@ -36,7 +36,7 @@ class BenchScreen(Screen):
         Binding("home", "first", "First subgroup", id="cursor-first", show=False),
         Binding("end", "last", "Last subgroup", id="cursor-last", show=False),
         Binding("n", "next_signal", "Next signal", id="next-signal"),
-        Binding("N", "prev_signal", "Prev signal", id="prev-signal"),
+        Binding("N", "prev_signal", "Prev signal", id="prev-signal", show=False),
         Binding("down,j", "step_signal(1)", "Next signal in list", id="list-down", show=False),
         Binding("up,k", "step_signal(-1)", "Previous signal in list", id="list-up", show=False),
         Binding("plus,equals_sign", "zoom(0.5)", "Zoom in", id="zoom-in", show=False),

@@ -48,13 +48,13 @@ class BreakdownScreen(Screen):
 
     BINDINGS = [
         Binding("escape", "back", "Back", id="breakdown-back"),
-        Binding("right,l", "move(1)", "Next subgroup", id="breakdown-next"),
-        Binding("left,h", "move(-1)", "Previous subgroup", id="breakdown-prev"),
-        Binding("n", "signal(1)", "Next signal", id="breakdown-next-signal"),
-        Binding("N", "signal(-1)", "Prev signal", id="breakdown-prev-signal"),
         Binding("x", "exclude", "Exclude subgroup", id="breakdown-exclude"),
         Binding("X", "exclude_reading", "Exclude reading", id="breakdown-exclude-reading"),
         Binding("r", "restore", "Restore", id="breakdown-restore"),
+        Binding("n", "signal(1)", "Next signal", id="breakdown-next-signal"),
+        Binding("N", "signal(-1)", "Prev signal", id="breakdown-prev-signal", show=False),
+        Binding("right,l", "move(1)", "Next subgroup", id="breakdown-next", show=False),
+        Binding("left,h", "move(-1)", "Previous subgroup", id="breakdown-prev", show=False),
     ]
 
     def __init__(self, position: int) -> None:
