@@ -110,11 +110,21 @@ def cmd_watch(args: argparse.Namespace) -> int:
     from .core.casefile import Case
     from .core.phase2 import Watch
     printer = Printer(args.format, args.each, not args.no_bell)
-    case = Case.open(args.case, readonly=False, author=args.author)
+    try:
+        case = Case.open(args.case, readonly=False, author=args.author)
+    except WorkbenchError as exc:
+        printer.status({"event": "stopped", "status": "error", "message": str(exc)})
+        raise
     try:
         for n in case.notices:
             printer.note(n)
-        watch = Watch.start(case)
+        try:
+            watch = Watch.start(case)
+        except WorkbenchError as exc:
+            status = "shrunk" if "shrunk" in str(exc) else "rewritten" if "rewritten" in str(exc) or \
+                "changed" in str(exc) else "missing" if "no such file" in str(exc) else "error"
+            printer.status({"event": "stopped", "status": status, "message": str(exc)})
+            raise
         a = watch.analysis
         printer.note(f"watching {watch.follower.path}: {a.dataset.m} subgroups, Phase II from position "
                      f"{watch.frozen.subgroups}" + ("" if args.once else "; Ctrl-C stops"),

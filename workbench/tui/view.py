@@ -170,19 +170,23 @@ def limits_line(name: str, lim: dict) -> str:
 
 
 def limits_change(before: dict, after: dict) -> list[str]:
-    """``xbar: UCL 501.2 → 501.0, centre …`` for every limit of every chart (limits snapshots)."""
-    out = []
+    """``xbar: UCL 501.2 → 501.0, centre …`` for every limit of every chart (limits snapshots);
+    a chart whose limits did not move is one short line."""
+    out, moved = [], False
     b, a = before.get("charts", {}), after.get("charts", {})
     for name in list(a) + [n for n in b if n not in a]:
         lb, la = b.get(name, {}), a.get(name, {})
-        parts = []
+        parts, same = [], True
         for k, word in (("ucl", "UCL"), ("center", "centre"), ("lcl", "LCL")):
             vb, va = lb.get(k), la.get(k)
             if vb is None and va is None:
                 continue
-            mark = "" if fmt(vb) != fmt(va) else " (same)"
-            parts.append(f"{word} {fmt(vb)} → {fmt(va)}{mark}")
-        out.append(f"{name}: " + ", ".join(parts))
-    if before.get("sigma") != after.get("sigma"):
+            unchanged = fmt(vb) == fmt(va)
+            same = same and unchanged
+            parts.append(f"{word} {fmt(vb)} → {fmt(va)}" + (" (same)" if unchanged else ""))
+        moved = moved or not same
+        out.append(f"{name}: " + ("limits unchanged" if same else ", ".join(parts)))
+    if fmt(before.get("sigma")) != fmt(after.get("sigma")):
         out.append(f"sigma: {fmt(before.get('sigma'))} → {fmt(after.get('sigma'))}")
-    return out
+        moved = True
+    return out if moved else ["the limits did not change"]

@@ -16,6 +16,22 @@ from ..view import limits_change, safe
 from ..widgets.keybar import KeyBar
 
 
+def setup_changes(events) -> dict[int, list[str]]:
+    """Event number -> ``name: old -> new`` for each settings event (against the setup before it)."""
+    from workbench.core.case import settings_changes
+    from workbench.core.model import Settings
+    out, current = {}, None
+    for ev in events:
+        new = ev.payload.get("settings") if ev.kind in ("created", "settings") else None
+        if new is None:
+            continue
+        settings = Settings.from_dict(new)
+        if current is not None:
+            out[ev.seq] = [safe(c) for c in settings_changes(current, settings)]
+        current = settings
+    return out
+
+
 class TrailScreen(Screen):
     """The append-only log of the case, newest last."""
 
@@ -27,6 +43,7 @@ class TrailScreen(Screen):
     def __init__(self) -> None:
         super().__init__(id="trail")
         self.snap: Snapshot | None = None
+        self.changes: dict[int, list[str]] = {}
 
     def compose(self) -> ComposeResult:
         yield Static(id="trail-integrity", markup=False)
@@ -47,9 +64,13 @@ class TrailScreen(Screen):
         table = self.query_one(DataTable)
         table.clear()
         hide = self.app.hide_times
+        self.changes = setup_changes(snap.events)
         for ev in snap.events:
+            words = describe(ev)
+            if ev.seq in self.changes:
+                words += ": " + "; ".join(self.changes[ev.seq])
             table.add_row(str(ev.seq), "—" if hide else ev.time, Text(safe(ev.author)), ev.kind,
-                          Text(describe(ev)), key=str(ev.seq))
+                          Text(words), key=str(ev.seq))
         if snap.events:
             table.move_cursor(row=len(snap.events) - 1)
         self.action_verify()
@@ -62,6 +83,8 @@ class TrailScreen(Screen):
         t = Text()
         t.append(f"event {ev.seq} · {ev.kind} · {safe(ev.author)}\n", style="bold")
         t.append(describe(ev) + "\n")
+        for change in self.changes.get(ev.seq, ()):
+            t.append(f"  {change}\n")
         if ev.limits_before is not None and ev.limits_after is not None:
             t.append("limits before → after\n", style="underline")
             for line in limits_change(ev.limits_before, ev.limits_after):
