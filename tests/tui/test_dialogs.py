@@ -91,10 +91,10 @@ async def test_mapping_dialog_when_the_layout_is_not_detected(in_tmp):
         dialog = app.screen
         assert isinstance(dialog, MappingDialog)
         assert "give --stream" in screen_text(app)
-        dialog.query_one("#kind").value = "long"
-        dialog.query_one("#subgroup").value = "lot"
-        dialog.query_one("#stream").value = "cavity_no"
-        dialog.query_one("#value").value = "reading"
+        dialog.query_one("#map-kind").value = "long"
+        dialog.query_one("#map-subgroup").value = "lot"
+        dialog.query_one("#map-stream").value = "cavity_no"
+        dialog.query_one("#map-value").value = "reading"
         await settle(pilot)
         dialog.submit()
         await settle(pilot)

@@ -127,3 +127,38 @@ async def test_marks_and_restore_are_recorded(in_tmp):
         assert app.snapshot.state.exclusions == ()
         assert [e.kind for e in app.snapshot.events][-3:] == ["signal", "exclude", "restore"]
         await pilot.press("q")
+
+
+async def test_frozen_limits_mark_phase_two(in_tmp):
+    import numpy as np
+
+    from tui_helpers import data_app
+    rng = np.random.default_rng(3)
+    rows = [f"{i + 1},{a:.2f},{b:.2f},{c:.2f}" for i, (a, b, c) in enumerate(rng.normal(20, 0.3, (30, 3)))]
+    data = in_tmp / "caps.csv"
+    data.write_text("sample,S1,S2,S3\n" + "\n".join(rows) + "\n", encoding="utf-8")
+    app = data_app(data)
+    async with app.run_test(size=(120, 36)) as pilot:
+        await settle(pilot)
+        await pilot.press("L")
+        await settle(pilot)
+        await pilot.click("#choice-freeze")
+        await settle(pilot)
+        assert app.snapshot.state.frozen is not None and app.snapshot.events[-1].kind == "freeze"
+        assert "frozen" in screen_text(app)
+        await pilot.press("q")
+    more = [f"{i + 31},{a:.2f},{b:.2f},{c:.2f}" for i, (a, b, c) in enumerate(rng.normal(21, 0.3, (10, 3)))]
+    with open(data, "a", encoding="utf-8") as fh:
+        fh.write("\n".join(more) + "\n")
+    app = data_app(data, reuse="reuse")
+    async with app.run_test(size=(120, 36)) as pilot:
+        await settle(pilot)
+        snap = app.snapshot
+        assert snap.dataset.m == 40 and snap.analysis.phase2_start == 30
+        text = screen_text(app)
+        assert "Phase II from 31" in text  # status bar and chart caption
+        pic = app.screen.query_one("#location").picture
+        from workbench.tui.window import column_of
+        col = pic.left + column_of(30, pic.window, pic.cols)
+        assert any(line[col] in "│┼┬┴" for line in pic.plain[pic.top:pic.top + pic.rows])  # the boundary line
+        await pilot.press("q")

@@ -104,3 +104,40 @@ async def test_markup_and_escapes_in_data_show_literally(in_tmp):
         assert app.snapshot.state.notes[-1].text == "[red]see"
         assert "note: [red]see" in screen_text(app)
         await pilot.press("q")
+
+
+async def test_a_click_on_a_point_selects_its_subgroup(in_tmp):
+    app = demo_app()
+    async with app.run_test(size=(120, 36)) as pilot:
+        await settle(pilot)
+        bench = app.screen
+        chart = bench.query_one("#location")
+        pic = chart.picture
+        from workbench.tui.window import position_of
+        col = pic.cols // 3
+        await pilot.click("#location", offset=(pic.left + col, pic.top + 2))
+        await settle(pilot)
+        assert bench.cursor == position_of(col, pic.window, pic.cols, chart.codes)
+        assert chart.cursor_column() == col or abs(chart.cursor_column() - col) <= 1
+        await pilot.press("q")
+
+
+async def test_opening_reports_progress(in_tmp):
+    from workbench.tui.messages import OpenProgress
+    seen = []
+    app = demo_app()
+    async with app.run_test(size=(120, 36), message_hook=lambda m: seen.append(m)) as pilot:
+        await settle(pilot)
+        stages = [m.what for m in seen if isinstance(m, OpenProgress)]
+        assert any(s.startswith("reading") for s in stages) and any(s.startswith("analysing") for s in stages)
+        assert [m.fraction for m in seen if isinstance(m, OpenProgress)] == sorted(
+            m.fraction for m in seen if isinstance(m, OpenProgress))
+        await pilot.press("q")
+
+
+def test_benchmark_reports_both_round_trips():
+    from workbench.tui.benchmark import measure_keypress
+    result = measure_keypress(subgroups=3000, presses=3)
+    assert set(result) >= {"app_ms", "empty_ms", "ratio"}
+    assert result["app_ms"] > 0 and result["empty_ms"] > 0
+    assert result["ratio"] == pytest.approx(result["app_ms"] / result["empty_ms"], rel=1e-2)

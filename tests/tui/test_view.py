@@ -115,3 +115,20 @@ def test_panels_name_the_range_drivers_and_fit_their_width():
         lines = status_lines(snap, 30, False, width=width).plain().split("\n")
         assert len(lines) <= 2 and all(len(line) <= width for line in lines)
         assert "x.case.json" in lines[-1] and "saved" in lines[-1]
+
+
+@given(st.integers(10, 300), st.integers(1, 30))
+@settings(max_examples=150, deadline=None)
+def test_axis_labels_fit_the_axis_and_never_touch(cols, length):
+    from workbench.tui.plotting import tick_layout
+    pos, names = tick_layout(cols, lambda c: f"{c:0{length}d}")
+    spans = [(p - len(t) // 2, p - len(t) // 2 + len(t)) for p, t in zip(pos, names)]  # centred on the tick
+    assert all(0 <= p < cols for p in pos) and len(set(pos)) == len(pos)
+    assert all(b0 < a1 for (_, b0), (a1, _) in zip(spans, spans[1:]))
+
+
+def test_long_labels_keep_their_last_parts():
+    from workbench.tui.plotting import fit_label
+    assert fit_label("2026-03-02 14:15", 16) == "2026-03-02 14:15"
+    assert fit_label("2026-03-02 14:15", 8) == "14:15"
+    assert fit_label("batch-000123", 6) == "000123"

@@ -199,7 +199,7 @@ def analyse(dataset: Dataset, settings: Settings = Settings(), exclusions: Itera
         use[min(frozen.subgroups, ds.m):] = False
 
     if chart in ATTRIBUTE_CHARTS:
-        return _analyse_attribute(ds, settings, excl, chart, ex_sub, ex_cells, phase2, warnings)
+        return _analyse_attribute(ds, settings, excl, chart, ex_sub, ex_cells, phase2, warnings, frozen)
 
     if ds.is_summary:
         stats = _summary_stats(ds)
@@ -298,7 +298,8 @@ def _small_shift(chart: str, loc: ChartResult, center: float, settings: Settings
     return res
 
 
-def _analyse_attribute(ds, settings, excl, chart, ex_sub, ex_cells, phase2, warnings) -> Analysis:
+def _analyse_attribute(ds, settings, excl, chart, ex_sub, ex_cells, phase2, warnings, frozen=None) -> Analysis:
+    """Count charts.  A freeze fixes the centre rate (and Laney's sigma_z when it was used; 1.0 otherwise)."""
     from . import attribute
     if chart in ("p", "np") and ds.count_over_size:
         raise WorkbenchError(f"{ds.count_over_size} (a {chart} chart counts defectives, which cannot outnumber "
@@ -308,20 +309,25 @@ def _analyse_attribute(ds, settings, excl, chart, ex_sub, ex_cells, phase2, warn
     sizes = None
     if ds.sizes is not None:
         sizes = np.nansum(np.where(ex_cells & ~ex_sub[:, None], 0.0, ds.sizes), axis=1)
-    res, info = attribute.attribute_chart(chart, counts, sizes, ex_sub, settings.laney)
+    rate = frozen.center if frozen is not None else None
+    sigma_z = (frozen.sigma if frozen.sigma != 1.0 else None) if frozen is not None else None
+    res, info = attribute.attribute_chart(chart, counts, sizes, ex_sub, settings.laney, ds.labels, rate, sigma_z)
     warnings.extend(info.warnings)
     note = attribute.rules_warning(R.resolve(location_rules(settings, chart)).ids)
     if note:
         warnings.append(note)
+    if info.laney_used and info.sigma_z:
+        res = ChartResult(res.name, res.title, res.role, res.values, res.center, res.lcl, res.ucl, res.sigma,
+                          res.excluded, res.flags, res.rules, {"sigma_z": np.full(ds.m, float(info.sigma_z))})
     charts, signals = _apply_rules(ds, [res], settings, chart)
-    center = float(np.nanmean(res.center))
+    center = float(info.center)  # p̄ / ū / c̄ (the np centre line is n·p̄)
     sig = float(np.nanmean(res.sigma))
     return Analysis(
         dataset=ds, settings=settings, exclusions=excl, chart=chart, sigma_method="binomial" if chart in ("p", "np")
         else "poisson", sigma_within=sig, sigma_overall=float("nan"), center=center,
         n=(sizes if sizes is not None else np.ones(ds.m)).astype(float), charts=tuple(charts),
         signals=signals, excluded_subgroups=ex_sub, excluded_cells=ex_cells, warnings=tuple(warnings),
-        phase2_start=phase2,
+        phase2_start=phase2, frozen=frozen,
     )
 
 
@@ -382,11 +388,13 @@ def limits_snapshot(analysis: Analysis) -> dict[str, Any]:
 
 def freeze(analysis: Analysis) -> FrozenLimits:
     """Freeze the current Phase I limits for new data."""
-    if analysis.chart in ATTRIBUTE_CHARTS:
-        raise WorkbenchError("freezing limits is available for variables charts")
     if not np.isfinite(analysis.sigma_within) or not np.isfinite(analysis.center):
         raise WorkbenchError("no limits to freeze: sigma or centre is undefined")
-    return FrozenLimits(chart=analysis.chart, center=analysis.center, sigma=analysis.sigma_within,
+    sigma = analysis.sigma_within
+    if analysis.chart in ATTRIBUTE_CHARTS:  # count charts freeze the rate; sigma is Laney's factor (1: plain)
+        sz = analysis.location.extra.get("sigma_z")
+        sigma = float(sz[0]) if sz is not None and sz.size else 1.0
+    return FrozenLimits(chart=analysis.chart, center=analysis.center, sigma=sigma,
                         subgroups=analysis.dataset.m if analysis.phase2_start is None else analysis.phase2_start,
                         limits=limits_snapshot(analysis)["charts"])
 

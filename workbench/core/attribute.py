@@ -77,7 +77,8 @@ def rules_warning(rule_ids: Iterable[str]) -> str | None:
 
 
 def attribute_chart(kind: str, counts: np.ndarray, sizes: np.ndarray | None, excluded: np.ndarray,
-                    laney: str = "auto", labels_for_errors=None) -> tuple[ChartResult, AttributeInfo]:
+                    laney: str = "auto", labels_for_errors=None, frozen_rate: float | None = None,
+                    frozen_sigma_z: float | None = None) -> tuple[ChartResult, AttributeInfo]:
     """Build a p, np, c or u chart with three-sigma limits, optionally Laney-corrected.
 
     Parameters
@@ -91,6 +92,8 @@ def attribute_chart(kind: str, counts: np.ndarray, sizes: np.ndarray | None, exc
         of sigma_z and of the dispersion test.
     laney : {"auto", "on", "off"}; see the module docstring.
     labels_for_errors : optional subgroup labels used to name the subgroup in error messages.
+    frozen_rate, frozen_sigma_z : Phase II — the p̄ / ū / c̄ (and Laney's sigma_z, when it was used)
+        fixed at a freeze; limits then follow from each subgroup's own size and nothing is re-estimated.
 
     Returns
     -------
@@ -113,9 +116,19 @@ def attribute_chart(kind: str, counts: np.ndarray, sizes: np.ndarray | None, exc
         raise WorkbenchError(f"Laney setting must be one of {', '.join(LANEY_MODES)}, not {laney!r}")
     counts, sizes, excluded = _validate(kind, counts, sizes, excluded, labels_for_errors)
     used = ~excluded
-    values, center, unit_sigma, totals, rate = _statistic(kind, counts, sizes, used)
+    values, center, unit_sigma, totals, rate = _statistic(kind, counts, sizes, used, frozen_rate)
     warnings: list[str] = []
     sigma_z = dispersion_p = None
+    if frozen_rate is not None:
+        sigma = unit_sigma * (frozen_sigma_z or 1.0)
+        cap = 1.0 if kind == "p" else (sizes[0] if kind == "np" else np.inf)
+        lcl, ucl = _limits(center, sigma, cap)
+        title = _TITLES[kind] + (f" (Laney {kind}′)" if frozen_sigma_z else "") + ", frozen limits"
+        chart = ChartResult(name=kind, title=title, role="location", values=values, center=center, lcl=lcl,
+                            ucl=ucl, sigma=sigma, excluded=excluded.copy(), flags={}, rules=())
+        return chart, AttributeInfo(kind=kind, center=rate, sigma_z=frozen_sigma_z, dispersion_p=None,
+                                    laney_used=bool(frozen_sigma_z), laney_recommended=False, warnings=(),
+                                    totals=totals)
     if rate <= 0 or (kind in ("p", "np") and rate >= 1):
         what = "no defectives" if rate <= 0 else "every unit defective"
         warnings.append(f"{what} in the subgroups used for the limits, so no {kind} limits can be set")
@@ -169,19 +182,20 @@ def _limits(center: np.ndarray, sigma: np.ndarray, cap: float) -> tuple[np.ndarr
     return lcl, ucl
 
 
-def _statistic(kind, counts, sizes, used):
-    """Plotted values, centre line, per-point sigma, totals and the centre rate p̄ / ū / c̄."""
+def _statistic(kind, counts, sizes, used, fixed_rate=None):
+    """Plotted values, centre line, per-point sigma, totals and the centre rate p̄ / ū / c̄
+    (``fixed_rate``: the rate frozen for Phase II instead of the estimate)."""
     total_c = float(counts[used].sum())
     m = counts.size
     if kind == "c":
         total_n = float(sizes[used].sum()) if sizes is not None else float(used.sum())
-        rate = total_c / used.sum()
+        rate = total_c / used.sum() if fixed_rate is None else fixed_rate
         center = np.full(m, rate)
         sigma = np.full(m, np.sqrt(rate))
         values = counts.astype(float)
     else:
         total_n = float(sizes[used].sum())
-        rate = total_c / total_n
+        rate = total_c / total_n if fixed_rate is None else fixed_rate
         if kind == "p":
             values, center = counts / sizes, np.full(m, rate)
             sigma = np.sqrt(rate * (1.0 - rate) / sizes)

@@ -119,6 +119,9 @@ class WorkbenchApp(Flows, App[int]):
         self.switch_screen(BenchScreen())
         for notice in msg.session.notices:
             self.notify(safe(notice), markup=False, timeout=8)
+        if self.request.settings_given and not msg.session.created:
+            self.notify("The setup options on the command line apply to new cases; this case keeps its own "
+                        "setup (press s to change it).", markup=False, timeout=10)
         if msg.snapshot.readonly:
             self.notify(f"read-only: {safe(msg.snapshot.readonly_reason)}", markup=False, severity="warning",
                         timeout=10)
@@ -184,11 +187,13 @@ def request_from_args(args: argparse.Namespace) -> OpenRequest:
         raise WorkbenchError(f"no such file: {path}")
     if path.is_dir():
         raise WorkbenchError(f"{path} is a directory, not a data or case file")
-    settings = settings_from_args(args, demo_settings_for(path))
+    base = demo_settings_for(path)
+    settings = settings_from_args(args, base)
     case = getattr(args, "case", None)
     return OpenRequest(path=path, request=layout_request_from_args(args), settings=settings,
                        author=getattr(args, "author", None), case_path=Path(case) if case else None,
-                       reuse="reuse" if not getattr(args, "path", None) else "ask")
+                       reuse="reuse" if not getattr(args, "path", None) else "ask",
+                       settings_given=settings != (base or type(settings)()))
 
 
 def run_app(args: argparse.Namespace) -> int:

@@ -60,6 +60,8 @@ class ChartsReady(Message):
 
     token: int
     pictures: tuple
+    error: str | None = None
+    """Why the window could not be drawn (then ``pictures`` is empty)."""
 
     def can_replace(self, message: Message) -> bool:
         return isinstance(message, ChartsReady)

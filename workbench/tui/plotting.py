@@ -84,7 +84,20 @@ def tick_layout(cols: int, label_at, most: int = 8) -> tuple[list[int], list[str
     room = max(4, min(width, cols // n - 2))
     half = room // 2
     pos = sorted({int(round(half + i * (cols - 1 - 2 * half) / (n - 1))) for i in range(n)})
-    return pos, [label_at(p)[-room:] for p in pos]
+    return pos, [fit_label(label_at(p), room) for p in pos]
+
+
+def fit_label(label: str, room: int) -> str:
+    """``label`` in ``room`` cells: whole, else its last space-separated parts (the time of a
+    timestamp), else its end."""
+    if len(label) <= room:
+        return label
+    parts = label.split(" ")
+    for i in range(1, len(parts)):
+        tail = " ".join(parts[i:])
+        if len(tail) <= room:
+            return tail
+    return label[-room:]
 
 
 def short(v: float) -> str:
@@ -147,7 +160,7 @@ def build(data: ChartData, win: Window, width: int, height: int, lwidth: int, la
         if isinstance(lim, float):
             plt.hline(lim, color=colour)
         elif lim is not None:
-            plt.plot(lim[0].tolist(), lim[1].tolist(), marker="dot", color=colour)
+            plt.plot(lim[0].tolist(), lim[1].tolist(), marker="braille", color=colour)
     if phase2 is not None and win.start < phase2 < win.stop:
         plt.vline(column_of(phase2, win, cols), color=PHASE)
     if tr.line_x.size:

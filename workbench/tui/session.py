@@ -41,6 +41,8 @@ class OpenRequest:
     """A dataset already in memory (generated data for the benchmark and tests)."""
     mapped: bool = False
     """The layout request came from the mapping dialog (any load error asks again)."""
+    settings_given: bool = False
+    """Setup options were given on the command line (they apply to a new case only)."""
 
     @property
     def is_case(self) -> bool:
@@ -159,7 +161,7 @@ def open_session(req: OpenRequest, progress: Progress = lambda what, f: None) ->
         except BaseException:
             case.close()
             raise
-        return Session(case, dataset, analysis)
+        return Session(case, dataset, analysis, created=False)
     case_path = Path(req.case_path) if req.case_path else default_case_path(req.path)
     if case_path.exists():
         if req.reuse == "ask":
@@ -177,14 +179,16 @@ def open_session(req: OpenRequest, progress: Progress = lambda what, f: None) ->
     progress(f"creating {case_path.name}", 0.9)
     case = Case.create_for(dataset, req.request, req.settings, req.author, case_path,
                            limits=limits_snapshot(analysis))
-    return Session(case, dataset, analysis)
+    return Session(case, dataset, analysis, created=True)
 
 
 class Session:
     """A case open in the workbench with its data; every method runs in a worker thread."""
 
-    def __init__(self, case: Case, dataset: Dataset, analysis: Analysis):
+    def __init__(self, case: Case, dataset: Dataset, analysis: Analysis, created: bool = False):
         self.case, self.dataset, self.analysis = case, dataset, analysis
+        self.created = created
+        """True when this session created the case (False: an existing case was opened)."""
         self.notices = tuple(case.notices) + tuple(dataset.notices)
 
     # -- reading

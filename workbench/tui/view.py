@@ -41,7 +41,8 @@ class SignalRow:
     """First position (-1 when the signal no longer exists: it was answered by an exclusion)."""
     last: int
     anchor: int
-    """Where the cursor goes for this signal (the point where the rule fired)."""
+    """Where the cursor goes for this signal (the point where the rule fired; for a signal answered
+    by an exclusion, its first subgroup; -1 when unknown)."""
     span: str
     """Subgroup label(s) in words."""
     label: str
@@ -144,7 +145,11 @@ def marks_for(a: Analysis, state: Any) -> Marks:
             live.add(key)
             m = _KEY.match(key)
             chart, rule, label = (m["chart"], m["rule"], m["label"]) if m else ("?", key, "")
-            rows.append(SignalRow(key, chart, rule, words.get(rule, rule), -1, -1, -1, safe(label), safe(label), 0,
+            try:
+                where = a.dataset.index_of(label)
+            except Exception:  # the label is not in these data (e.g. a changed file)
+                where = -1
+            rows.append(SignalRow(key, chart, rule, words.get(rule, rule), -1, -1, where, safe(label), safe(label), 0,
                                   "excluded"))
     firsts = np.array([r.first for r in rows[:current]], dtype=np.int64)
     lasts = np.array([r.last for r in rows[:current]], dtype=np.int64)

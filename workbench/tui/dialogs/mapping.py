@@ -42,16 +42,16 @@ class MappingDialog(ModalScreen[LayoutRequest | None]):
             with VerticalScroll(classes="mapping-fields"):
                 yield Static("Layout", markup=False)
                 yield Select([(k, v) for k, v in KINDS if v], prompt="detect", value=r.kind or Select.NULL,
-                             id="kind")
-                for wid, words, cur in (("subgroup", "Subgroup column (label or time)", r.subgroup),
-                                        ("stream", "Stream column (long layout)", r.stream),
-                                        ("value", "Reading column (long / individuals)", r.value),
-                                        ("time", "Time column (orders the rows)", r.time)):
+                             id="map-kind")
+                for wid, words, cur in (("map-subgroup", "Subgroup column (label or time)", r.subgroup),
+                                        ("map-stream", "Stream column (long layout)", r.stream),
+                                        ("map-value", "Reading column (long / individuals)", r.value),
+                                        ("map-time", "Time column (orders the rows)", r.time)):
                     yield Static(words, markup=False)
                     yield self._select(wid, cur)
                 yield Static("Stream columns (wide layout)", markup=False)
                 yield SelectionList(*[(Text(f"{safe(c)}  e.g. {safe(self.samples.get(c, ''))}"), c, c in r.streams)
-                                      for c in self.columns], id="streams")
+                                      for c in self.columns], id="map-streams")
             yield Label("", id="error", classes="dialog-error", markup=False)
             with Horizontal(classes="dialog-buttons"):
                 yield Button("Load", variant="primary", id="confirm")
@@ -63,9 +63,10 @@ class MappingDialog(ModalScreen[LayoutRequest | None]):
 
     @on(Button.Pressed, "#confirm")
     def submit(self) -> None:
-        streams = tuple(self.query_one("#streams", SelectionList).selected)
-        req = LayoutRequest(kind=self._value("kind"), subgroup=self._value("subgroup"), stream=self._value("stream"),
-                            value=self._value("value"), time=self._value("time"), streams=streams,
+        streams = tuple(self.query_one("#map-streams", SelectionList).selected)
+        req = LayoutRequest(kind=self._value("map-kind"), subgroup=self._value("map-subgroup"),
+                            stream=self._value("map-stream"), value=self._value("map-value"),
+                            time=self._value("map-time"), streams=streams,
                             skip_bad=self.request.skip_bad)
         if req == LayoutRequest(skip_bad=self.request.skip_bad):
             self.query_one("#error", Label).update("Choose at least a layout or one column.")

@@ -5,16 +5,14 @@ and a new picture is built in a worker only when the window of subgroups changes
 """
 from __future__ import annotations
 
-from textual import on, work
+from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical
 from textual.screen import Screen
 from textual.widgets import Static
-from textual.worker import get_current_worker
 
-from ..messages import ChartsReady
-from ..plotting import ChartData, build, label_width, legend_text
+from ..plotting import legend_text
 from ..session import Snapshot
 from ..widgets.control_chart import ControlChart
 from ..widgets.keybar import KeyBar
@@ -22,12 +20,12 @@ from ..widgets.lines import LinesPanel
 from ..widgets.panels import SubgroupPanel, status_lines
 from ..widgets.signal_list import SignalList
 from ..window import Window, follow, window_at
+from .bench_charts import MIN_WINDOW, BenchCharts
 
 WRITES = {"exclude", "restore", "note", "explain", "no_cause", "reopen", "freeze", "setup"}
-MIN_WINDOW = 8
 
 
-class BenchScreen(Screen):
+class BenchScreen(BenchCharts, Screen):
     """The main screen of a case."""
 
     BINDINGS = [
@@ -103,65 +101,6 @@ class BenchScreen(Screen):
         self._update_cursor_views()
         self.request_charts()
 
-    def _default_size(self) -> int:
-        """One subgroup per plot column (the y labels take about 13 columns)."""
-        width = self.query_one("#location").size.width or self.app.size.width
-        return max(MIN_WINDOW, width - 13)
-
-    # -- charts -----------------------------------------------------------------------------
-
-    def request_charts(self) -> None:
-        snap = self.snap
-        if snap is None:
-            return
-        widgets = [self.query_one("#location", ControlChart), self.query_one("#spread", ControlChart)]
-        sizes = [(w.size.width, w.size.height) for w in widgets]
-        if sizes[0][0] <= 0 or sizes[0][1] <= 0:
-            return
-        if self.window is None or self.auto_window:
-            size = self._default_size()
-            if self.window is None or self.window.size != min(size, snap.dataset.m):
-                start = self.window.start if self.window is not None else self.cursor
-                self.window = follow(window_at(start, size, snap.dataset.m), self.cursor, snap.dataset.m)
-        win = self.window
-        self.token += 1
-        self._build(self.token, snap, win, sizes)
-
-    @work(thread=True, exclusive=True, group="charts")
-    def _build(self, token: int, snap: Snapshot, win: Window, sizes: list[tuple[int, int]]) -> None:
-        a = snap.analysis
-        charts = [ChartData(f"{c.name}", f"{c.name} · {c.title}", c.values, c.center, c.lcl, c.ucl,
-                            snap.marks.codes[c.name]) for c in a.charts[:2]]
-        cols = max(sizes[0][0] - 14, 10)
-        lw = label_width(charts, win, cols)
-        m = snap.dataset.m
-        caption = f"subgroups {win.start + 1:,}–{win.stop:,} of {m:,}"
-        if win.size > sizes[0][0] - lw - 2:
-            caption += " · min/max per column"
-        if a.phase2_start is not None:
-            caption += f" · Phase II from {a.phase2_start + 1:,}"
-        worker = get_current_worker()
-        pics = []
-        for i, (data, (w, h)) in enumerate(zip(charts, sizes)):
-            if worker.is_cancelled:
-                return
-            last = i == len(charts) - 1
-            pics.append(build(data, win, w, h, lw, snap.dataset.labels, a.phase2_start, xticks=last,
-                              token=token, caption=caption if i == 0 else ""))
-        self.post_message(ChartsReady(token, tuple(pics)))
-
-    @on(ChartsReady)
-    def charts_ready(self, msg: ChartsReady) -> None:
-        if msg.token != self.token or self.snap is None:
-            return
-        widgets = [self.query_one("#location", ControlChart), self.query_one("#spread", ControlChart)]
-        if any(w.size.width != pic.width or w.size.height != pic.height for w, pic in zip(widgets, msg.pictures)):
-            self.request_charts()  # the size changed while it was drawn
-            return
-        for w, pic, data in zip(widgets, msg.pictures, self.snap.analysis.charts):
-            w.show(pic, self.snap.marks.codes[data.name])
-            w.set_cursor(self.cursor)
-
     def on_resize(self) -> None:
         self.set_class(self.size.width < 100, "narrow")
         self.set_class(self.size.height < 30, "short")
@@ -213,10 +152,6 @@ class BenchScreen(Screen):
             status = self.query_one("#status", LinesPanel)
             status.set_lines(status_lines(self.snap, self.cursor, self.app.busy, busy, status.size.width or 120,
                                           1 if self.has_class("wide") else 2))
-
-    @on(ControlChart.Resized)
-    def chart_resized(self) -> None:
-        self.request_charts()
 
     @on(ControlChart.Clicked)
     def chart_clicked(self, msg: ControlChart.Clicked) -> None:

@@ -126,8 +126,11 @@ class BreakdownScreen(Screen):
 
     @work(thread=True, exclusive=True, group="stream-plot")
     def _plot(self, token: int, snap: Snapshot, p: int, row: int, width: int, height: int) -> None:
-        self.post_message(Computed("plot", token, (neighbourhood_text(snap.dataset, p, row, width, height),
-                                                   (width, height))))
+        try:
+            picture = neighbourhood_text(snap.dataset, p, row, width, height)
+        except Exception as exc:  # shown in place of the chart
+            picture = Text(f"cannot draw the readings: {type(exc).__name__}: {exc}")
+        self.post_message(Computed("plot", token, (picture, (width, height))))
 
     @on(Computed)
     def computed(self, msg: Computed) -> None:

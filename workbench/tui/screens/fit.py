@@ -113,11 +113,12 @@ class FitScreen(Screen):
         try:
             cap = assess(a.readings(), a.sigma_within, a.sigma_method, snap.state.settings.spec,
                          open_signals=snap.marks.open_count)
+            picture = fit_picture(cap, a.readings(), width, height)
+            words = Text(capability_text(cap, text_width))
         except Exception as exc:  # the reason is shown in the view
-            self.post_message(Computed("fit", token, None, str(exc)))
+            self.post_message(Computed("fit", token, None, str(exc) or type(exc).__name__))
             return
-        picture = fit_picture(cap, a.readings(), width, height)
-        self.post_message(Computed("fit", token, (picture, Text(capability_text(cap, text_width)))))
+        self.post_message(Computed("fit", token, (picture, words)))
 
     @on(Computed)
     def computed(self, msg: Computed) -> None:

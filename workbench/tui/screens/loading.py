@@ -15,7 +15,7 @@ from ..widgets.keybar import KeyBar
 class LoadingScreen(Screen):
     """Shown while the opening worker runs."""
 
-    BINDINGS = [Binding("escape", "app.quit", "Quit", id="loading-quit")]
+    BINDINGS = [Binding("escape", "app.quit", "Quit", id="loading-quit", show=False)]
 
     def __init__(self, what: str) -> None:
         super().__init__(id="loading")

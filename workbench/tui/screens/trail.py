@@ -12,7 +12,7 @@ from workbench.core.case import describe
 
 from ..messages import Computed
 from ..session import Snapshot
-from ..view import limits_change, safe
+from ..view import limits_change, limits_line, safe
 from ..widgets.keybar import KeyBar
 
 
@@ -91,8 +91,8 @@ class TrailScreen(Screen):
                 t.append(f"  {line}\n")
         elif ev.limits_after is not None:
             t.append("limits recorded at this event\n", style="underline")
-            for line in limits_change(ev.limits_after, ev.limits_after):
-                t.append(f"  {line.replace(' (same)', '')}\n")
+            for name, lim in ev.limits_after.get("charts", {}).items():
+                t.append(f"  {limits_line(name, lim)}\n")
         self.query_one("#trail-detail", Static).update(t)
 
     def action_verify(self) -> None:
@@ -118,7 +118,8 @@ class TrailScreen(Screen):
             v = msg.result
             if v.intact:
                 head = "…" if self.app.hide_times else (v.head_hash or "")[:16]
-                t.append(f"intact — {v.events} events, hash chain whole, head {head}", style="bold")
+                events = f"{v.events} event{'' if v.events == 1 else 's'}"
+                t.append(f"intact — {events}, hash chain whole, head {head}", style="bold")
             else:
                 t.append(f"NOT intact — {safe(v.problems[0])}", style="bold reverse")
                 for p in v.problems[1:]:

@@ -1,0 +1,54 @@
+"""The fit view: cautions always visible, the method switch recorded, no specification handled."""
+from __future__ import annotations
+
+import numpy as np
+
+from workbench.tui.screens.fit import FitScreen
+
+from tui_helpers import data_app, demo_app, screen_text, settle
+
+
+async def test_fit_view_shows_cautions_and_records_the_method(in_tmp):
+    app = demo_app()
+    async with app.run_test(size=(120, 40)) as pilot:
+        await settle(pilot)
+        await pilot.press("f")
+        await settle(pilot)
+        assert isinstance(app.screen, FitScreen)
+        text = screen_text(app)
+        # the standing cautions the issue asks for
+        assert "estimates" in text and "stable process" in text
+        assert "customer's requirements" in text and "local regulations" in text
+        assert "Stability gate" in text and "open signals" in text
+        assert "LSL 497" in text and "USL 503" in text  # demo_data/README.md: specification 497.0–503.0 mL
+        assert "Cpk" in text or "Ppk" in text
+        await pilot.press("1")
+        await settle(pilot)
+        snap = app.snapshot
+        assert snap.events[-1].kind == "settings" and snap.state.settings.spec.method == "normal"
+        assert "Method: normal" in screen_text(app)
+        assert app.screen.check_action("method", ("normal",)) is None  # already chosen
+        await pilot.press("escape", "q")
+
+
+async def test_fit_view_without_a_specification_offers_the_setup(in_tmp):
+    rng = np.random.default_rng(8)
+    rows = [f"{i + 1},{a:.3f},{b:.3f}" for i, (a, b) in enumerate(rng.normal(3, 0.1, (25, 2)))]
+    (in_tmp / "gap.csv").write_text("sample,A,B\n" + "\n".join(rows) + "\n", encoding="utf-8")
+    app = data_app(in_tmp / "gap.csv")
+    async with app.run_test(size=(120, 36)) as pilot:
+        await settle(pilot)
+        await pilot.press("f")
+        await settle(pilot)
+        assert "No specification is set" in screen_text(app) and "Press s" in screen_text(app)
+        assert not app.screen.query_one("#fit-body").display
+        await pilot.press("s")
+        await settle(pilot)
+        dialog = app.screen
+        dialog.query_one("#lsl").value = "2.6"
+        dialog.query_one("#usl").value = "3.4"
+        dialog.action_apply()
+        await settle(pilot)
+        assert isinstance(app.screen, FitScreen) and app.screen.query_one("#fit-body").display
+        assert "Cp" in screen_text(app)
+        await pilot.press("escape", "q")
