@@ -414,3 +414,27 @@ def open_signals(analysis: Analysis, states: dict[str, Any] | None = None) -> li
             continue
         out.append(s)
     return out
+
+
+def capability_for(analysis: Analysis, states: dict | None = None):
+    """Capability with the stability gate counting only the signals still open under a case's states.
+
+    Without states every signal counts as open (``Analysis.capability``).  Returns None when no
+    specification is set; raises WorkbenchError as ``Analysis.capability`` does.
+    """
+    if states is None:
+        return analysis.capability
+    spec = analysis.settings.spec
+    if spec is None or (spec.lsl is None and spec.usl is None):
+        return None
+    n_open = len(open_signals(analysis, states))
+    cache = analysis.__dict__.setdefault("_capability_by_open", {})
+    if n_open not in cache:
+        if n_open == len(analysis.signals):
+            cache[n_open] = analysis.capability
+        else:
+            from .capability import assess
+            analysis.capability  # same input checks (counts, summary data)
+            cache[n_open] = assess(analysis.readings(), analysis.sigma_within, analysis.sigma_method, spec,
+                                   open_signals=n_open)
+    return cache[n_open]

@@ -106,7 +106,8 @@ def report_json(a: Analysis, states: dict | None = None, with_values: bool = Fal
             "kruskal_wallis": {"h": cmp_.kruskal_h, "p": cmp_.kruskal_p, "method": "scipy.stats.kruskal"},
             "variance": {"between": cmp_.var_between, "within": cmp_.var_within, "share_between": cmp_.share_between},
             "differ": cmp_.differ, "advice": cmp_.advice}
-    cap = a.capability
+    from .analysis import capability_for
+    cap = capability_for(a, states)
     if cap is not None:
         from .capability_report import capability_json
         out["capability"] = capability_json(cap)
@@ -196,7 +197,8 @@ def report_text(a: Analysis, states: dict | None = None, width: int = 100) -> st
         L.append(f"          ANOVA F {fmt(cmp_.anova_f)} p {fmt(cmp_.anova_p)}; Kruskal–Wallis H "
                  f"{fmt(cmp_.kruskal_h)} p {fmt(cmp_.kruskal_p)}")
         L.append(f"          {_p(cmp_.advice)}")
-    cap = a.capability
+    from .analysis import capability_for
+    cap = capability_for(a, states)
     if cap is not None:
         from .capability_report import capability_text
         L.append("")
@@ -263,7 +265,8 @@ def report_markdown(a: Analysis, states: dict | None = None) -> str:
             L.append(f"| {esc(s)} | {fmt(m)} | {fmt(sd)} | {n} |")
         L += ["", f"One-way ANOVA F = {fmt(cmp_.anova_f)}, p = {fmt(cmp_.anova_p)}; Kruskal–Wallis H = "
                   f"{fmt(cmp_.kruskal_h)}, p = {fmt(cmp_.kruskal_p)}.", "", esc(cmp_.advice)]
-    cap = a.capability
+    from .analysis import capability_for
+    cap = capability_for(a, states)
     if cap is not None:
         from .capability_report import capability_markdown
         L += ["", capability_markdown(cap)]
