@@ -73,3 +73,11 @@ def test_breakdown_common_cause_when_all_streams_move():
     v[40] += 2.5
     b = breakdown(analyse(make_dataset(v), Settings()), 40)
     assert b.driver is None and "moved together" in b.verdict
+
+
+def test_breakdown_of_an_excluded_subgroup_still_names_its_driver():
+    v = _data()
+    v[30, 3] += 5.0
+    a = analyse(make_dataset(v), Settings(), [Exclusion("31")])
+    b = breakdown(a, 30)
+    assert b.driver == "S4" and all(r.excluded for r in b.rows)

@@ -156,7 +156,9 @@ def breakdown(a: Analysis, position: int) -> Breakdown:
             share = (rng - r_without) / rng
         rows.append(StreamRow(name, x, dev, float(mean[j]), float(sd[j]), float(z), role, share,
                               bool(ex_row[j]), float(gap_z)))
-    driver, verdict = _verdict(rows)
+    # a wholly excluded subgroup is still described by its readings; a single excluded reading is not
+    live = [r for r, on in zip(rows, use) if on]
+    driver, verdict = _verdict(live)
     return Breakdown(position, label, tuple(rows), sub_mean, rng, driver, verdict)
 
 
@@ -168,7 +170,7 @@ COMMON_NOTABLE = 2.5
 
 def _verdict(rows: list[StreamRow]) -> tuple[str | None, str]:
     """Plain-words verdict: one stream out of line with the others, all moving together, or neither."""
-    live = [r for r in rows if np.isfinite(r.reading) and not r.excluded]
+    live = [r for r in rows if np.isfinite(r.reading)]
     if not live:
         return None, "no readings to compare in this subgroup"
     with_gap = [r for r in live if np.isfinite(r.gap_z)]

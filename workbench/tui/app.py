@@ -18,13 +18,14 @@ from .dialogs.mapping import MappingDialog
 from .flows import Flows
 from .messages import (ActionDone, ActionFailed, OpenFailed, OpenNeedsChoice, OpenNeedsMapping, OpenProgress,
                        SessionReady)
+from .watching import Watching
 from .screens.bench import BenchScreen
 from .screens.loading import LoadingScreen
 from .session import CaseExists, NeedMapping, OpenRequest, Session, Snapshot, open_session
 from .view import safe
 
 
-class WorkbenchApp(Flows, App[int]):
+class WorkbenchApp(Watching, Flows, App[int]):
     """One case on the bench."""
 
     CSS_PATH = "app.tcss"
@@ -36,8 +37,12 @@ class WorkbenchApp(Flows, App[int]):
         Binding("ctrl+p", "command_palette", "Commands", id="commands", show=False),
     ]
 
-    def __init__(self, request: OpenRequest, hide_times: bool = False, quiet_reuse: bool = False) -> None:
+    def __init__(self, request: OpenRequest, hide_times: bool = False, quiet_reuse: bool = False,
+                 watch: bool = False, watch_interval: float = 2.0, bell: bool = True) -> None:
         super().__init__()
+        self.watch_on_open = watch
+        """Follow the case's data file as soon as it is open (``workbench watch CASE``)."""
+        self.watch_interval, self.watch_bell = float(watch_interval), bool(bell)
         self.request = request
         self.hide_times = hide_times
         """Test hook: no times or hashes on screen (for snapshots)."""
@@ -125,6 +130,8 @@ class WorkbenchApp(Flows, App[int]):
         if msg.snapshot.readonly:
             self.notify(f"read-only: {safe(msg.snapshot.readonly_reason)}", markup=False, severity="warning",
                         timeout=10)
+        if self.watch_on_open:
+            self.start_watch()
 
     # -- actions recorded -------------------------------------------------------------------
 
@@ -174,6 +181,9 @@ class WorkbenchApp(Flows, App[int]):
 
     def close_session(self) -> None:
         """Release the case's lock (every action is already written)."""
+        if self._watch_timer is not None:
+            self._watch_timer.stop()
+            self._watch_timer = None
         if self.session is not None:
             self.session.close()
 
@@ -198,7 +208,9 @@ def request_from_args(args: argparse.Namespace) -> OpenRequest:
 
 def run_app(args: argparse.Namespace) -> int:
     """Run the workbench full screen; returns the exit status (2 when the file cannot be opened)."""
-    app = WorkbenchApp(request_from_args(args))
+    app = WorkbenchApp(request_from_args(args), watch=bool(getattr(args, "watch", False)),
+                       watch_interval=getattr(args, "watch_interval", None) or 2.0,
+                       bell=getattr(args, "bell", True))
     try:
         app.run()
     finally:

@@ -16,7 +16,7 @@ from .dialogs.choice import ChoiceDialog
 from .dialogs.exclude import ExcludeChoice, ExcludeDialog
 from .dialogs.reason import ReasonDialog
 from .dialogs.setup import SetupDialog, SetupResult
-from .messages import ActionDone, ActionFailed
+from .messages import ActionDone, ActionFailed, WatchStopped
 from .session import Change, Session
 from .view import STATE_WORDS, safe
 
@@ -36,12 +36,18 @@ class Flows:
 
     @work(thread=True, group="write")
     def _act(self, fn: Callable[[Session], Change]) -> None:
-        try:
-            change = fn(self.session)
-        except Exception as exc:  # one line to the user; the case is unchanged
-            self.post_message(ActionFailed(str(exc) or type(exc).__name__))
-            return
+        from . import follow
+        session = self.session
+        with session.lock:
+            try:
+                change = fn(session)
+            except Exception as exc:  # one line to the user; the case is unchanged
+                self.post_message(ActionFailed(str(exc) or type(exc).__name__))
+                return
+            stopped = follow.sync(session)
         self.post_message(ActionDone(change))
+        if stopped:
+            self.post_message(WatchStopped(stopped))
 
     # -- the flows ----------------------------------------------------------------------------
 

@@ -75,3 +75,18 @@ class Computed(Message):
     token: int
     result: Any
     error: str | None = None
+
+
+@dataclass
+class WatchLooked(Message):
+    """A look at the followed data file finished (``look`` is a follow.Look, None on ``error``)."""
+
+    look: Any
+    error: str | None = None
+
+
+@dataclass
+class WatchStopped(Message):
+    """Following the data file stopped (the limits were unfrozen, the file was rewritten, ...)."""
+
+    reason: str

@@ -7,6 +7,7 @@ were given and never touch the :class:`~workbench.core.casefile.Case` themselves
 """
 from __future__ import annotations
 
+import threading
 from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Callable
@@ -190,6 +191,10 @@ class Session:
         self.created = created
         """True when this session created the case (False: an existing case was opened)."""
         self.notices = tuple(case.notices) + tuple(dataset.notices)
+        self.lock = threading.RLock()
+        """Held by every action and every look at a followed file (they run in different workers)."""
+        self.watch = None
+        """The Phase II watch while the data file is followed (see :mod:`workbench.tui.follow`)."""
 
     # -- reading
 

@@ -50,6 +50,7 @@ class BenchScreen(BenchCharts, Screen):
         Binding("o", "reopen", "Reopen signal", id="reopen", show=False),
         Binding("a", "note", "Note", id="note"),
         Binding("L", "freeze", "Freeze/unfreeze limits", id="freeze", show=False),
+        Binding("w", "watch", "Follow the data file (on/off)", id="watch", show=False),
         Binding("s", "setup", "Setup", id="setup"),
         Binding("f", "fit", "Fit", id="fit"),
         Binding("t", "trail", "Trail", id="trail"),
@@ -151,7 +152,7 @@ class BenchScreen(BenchCharts, Screen):
         if self.snap is not None:
             status = self.query_one("#status", LinesPanel)
             status.set_lines(status_lines(self.snap, self.cursor, self.app.busy, busy, status.size.width or 120,
-                                          1 if self.has_class("wide") else 2))
+                                          1 if self.has_class("wide") else 2, self.app.watch_label()))
 
     @on(ControlChart.Clicked)
     def chart_clicked(self, msg: ControlChart.Clicked) -> None:
@@ -186,6 +187,8 @@ class BenchScreen(BenchCharts, Screen):
             return None if state == wanted or state == "excluded" else True
         if action == "freeze":
             return True if a.chart in ("xbar-r", "xbar-s", "imr", "ewma", "cusum") else None
+        if action == "watch":
+            return True if self.app.following or snap.state.frozen is not None else None
         if action == "next_signal":
             return True if mk.next_open(p, 1) is not None else None
         if action == "prev_signal":
@@ -282,6 +285,9 @@ class BenchScreen(BenchCharts, Screen):
 
     def action_freeze(self) -> None:
         self.app.freeze_flow()
+
+    def action_watch(self) -> None:
+        self.app.toggle_watch()
 
     def action_setup(self) -> None:
         self.app.setup_flow()

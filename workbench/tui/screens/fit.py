@@ -107,12 +107,13 @@ class FitScreen(Screen):
 
     @work(thread=True, exclusive=True, group="fit")
     def _assess(self, token: int, snap: Snapshot, width: int, height: int, text_width: int) -> None:
-        from workbench.core.capability import assess
+        from workbench.core.analysis import capability_for
         from workbench.core.capability_report import capability_text
         a = snap.analysis
         try:
-            cap = assess(a.readings(), a.sigma_within, a.sigma_method, snap.state.settings.spec,
-                         open_signals=snap.marks.open_count)
+            cap = capability_for(a, snap.state.signal_states)
+            if cap is None:
+                raise ValueError("no specification is set (press s on the bench to give LSL / USL)")
             picture = fit_picture(cap, a.readings(), width, height)
             words = Text(capability_text(cap, text_width))
         except Exception as exc:  # the reason is shown in the view

@@ -87,7 +87,7 @@ class SubgroupPanel(LinesPanel, can_focus=False):
 
 
 def status_lines(snap: Snapshot, p: int, saving: bool, busy: str = "", width: int = 120,
-                 lines: int = 2) -> Lines:
+                 lines: int = 2, following: str | None = None) -> Lines:
     """Chart kind, sigma and method, limits (at subgroup ``p``), frozen | counts, case file, saved state.
 
     Two lines (or one when ``lines`` is 1); a piece that does not fit its line is left out, and
@@ -114,6 +114,8 @@ def status_lines(snap: Snapshot, p: int, saving: bool, busy: str = "", width: in
          (f" · {words[0]} {mk.explained_count} · {words[1]} {mk.no_cause_count} · {words[2]} {mk.excluded_count}",
           None)],
         [(safe(snap.case_name), BOLD), (" ", None), state]]
+    if following:
+        case.insert(0, [(f" {following} ", BOLD_REVERSE)])
     out = Lines()
     for line in ([setup + case] if lines == 1 else [setup, case]):
         used = 0
