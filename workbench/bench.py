@@ -37,17 +37,28 @@ def write_wide_csv(path: Path, subgroups: int, streams: int, seed: int = 1) -> N
     df.to_csv(path, index=False)
 
 
+_MEASURE = """
+import os, resource, subprocess, sys, time
+t = time.perf_counter()
+r = subprocess.run(sys.argv[1:], stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+wall = time.perf_counter() - t
+if r.returncode not in (0, 1):
+    sys.stderr.write(r.stderr.decode(errors="replace")); sys.exit(3)
+print(wall, resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)
+"""
+
+
 def _child(cmd: list[str]) -> tuple[float, int]:
-    """Wall time (s) and peak resident memory (KiB) of a child process."""
-    t = time.perf_counter()
-    proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
-    _, status, usage = os.wait4(proc.pid, 0)
-    wall = time.perf_counter() - t
-    proc.returncode = os.waitstatus_to_exitcode(status)
-    if proc.returncode not in (0, 1):
-        err = proc.stderr.read().decode(errors="replace") if proc.stderr else ""
-        raise RuntimeError(f"{' '.join(cmd)} failed: {err.strip()}")
-    return wall, int(usage.ru_maxrss)
+    """Wall time (s) and peak resident memory (KiB) of a command.
+
+    A small fresh Python process runs it and reports its child's peak: measured from this
+    (large) process, a forked child's peak would include the parent's pages.
+    """
+    r = subprocess.run([sys.executable, "-c", _MEASURE, *cmd], capture_output=True, text=True)
+    if r.returncode != 0:
+        raise RuntimeError(f"{' '.join(cmd)} failed: {r.stderr.strip()}")
+    wall, rss = r.stdout.split()
+    return float(wall), int(rss)
 
 
 def _line(name: str, value: float, goal: float, unit: str = "×") -> bool:

@@ -26,14 +26,22 @@ MAX_N = 1000
 """Largest subgroup size for which constants are computed."""
 
 # Gauss-Legendre nodes on [-L, L]; the integrands below are smooth and vanish well inside |x| < 9
-# for every n <= MAX_N, so a fixed high-order rule is accurate to ~1e-12.
+# for every n <= MAX_N, so a fixed high-order rule is accurate to ~1e-12.  Built on first use, so
+# importing the module (and every command) stays fast.
 _L = 9.5
-_NODES, _WEIGHTS = np.polynomial.legendre.leggauss(400)
-_X = _NODES * _L
-_W = _WEIGHTS * _L
-_PHI = special.ndtr(_X)
-_LOG_PHI = special.log_ndtr(_X)
-_LOG_1M_PHI = special.log_ndtr(-_X)
+
+
+@lru_cache(maxsize=None)
+def _rule(points: int) -> tuple[np.ndarray, np.ndarray]:
+    t, w = np.polynomial.legendre.leggauss(points)
+    return t, w
+
+
+@lru_cache(maxsize=1)
+def _outer() -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    t, w = _rule(400)
+    x = t * _L
+    return x, w * _L, special.ndtr(x), special.log_ndtr(x), special.log_ndtr(-x)
 
 
 def _check_n(n: int) -> int:
@@ -67,8 +75,9 @@ def d2(n: int) -> float:
     Tippett (1925), *Biometrika* 17.
     """
     n = _check_n(n)
-    integrand = 1.0 - np.exp(n * _LOG_PHI) - np.exp(n * _LOG_1M_PHI)
-    return float(np.dot(_W, integrand))
+    _x, w, _phi, log_phi, log_1m_phi = _outer()
+    integrand = 1.0 - np.exp(n * log_phi) - np.exp(n * log_1m_phi)
+    return float(np.dot(w, integrand))
 
 
 @lru_cache(maxsize=None)
@@ -86,17 +95,18 @@ def d3(n: int) -> float:
     n = _check_n(n)
     # Inner integral over y in (-L, x) for each outer node x, by a Gauss-Legendre rule mapped
     # onto that interval.
-    t, wt = np.polynomial.legendre.leggauss(200)
-    x = _X[:, None]
+    t, wt = _rule(200)
+    xo, wo, phi_o, log_phi_o, _ = _outer()
+    x = xo[:, None]
     half = (x + _L) / 2.0
     y = half * t[None, :] + (x - _L) / 2.0  # nodes on (-L, x)
     wy = half * wt[None, :]
-    phi_x = _PHI[:, None]
+    phi_x = phi_o[:, None]
     phi_y = special.ndtr(y)
     diff = np.clip(phi_x - phi_y, 0.0, 1.0)
-    f = 1.0 - np.exp(n * _LOG_PHI)[:, None] - np.exp(n * special.log_ndtr(-y)) + diff**n
+    f = 1.0 - np.exp(n * log_phi_o)[:, None] - np.exp(n * special.log_ndtr(-y)) + diff**n
     inner = np.sum(f * wy, axis=1)
-    ew2 = 2.0 * float(np.dot(_W, inner))
+    ew2 = 2.0 * float(np.dot(wo, inner))
     return sqrt(max(ew2 - d2(n) ** 2, 0.0))
 
 

@@ -42,7 +42,7 @@ class WorkbenchApp(Watching, Flows, App[int]):
         super().__init__()
         self.watch_on_open = watch
         """Follow the case's data file as soon as it is open (``workbench watch CASE``)."""
-        self.watch_interval, self.watch_bell = float(watch_interval), bool(bell)
+        self.follow_interval, self.follow_bell = float(watch_interval), bool(bell)
         self.request = request
         self.hide_times = hide_times
         """Test hook: no times or hashes on screen (for snapshots)."""

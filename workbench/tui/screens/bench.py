@@ -152,7 +152,7 @@ class BenchScreen(BenchCharts, Screen):
         if self.snap is not None:
             status = self.query_one("#status", LinesPanel)
             status.set_lines(status_lines(self.snap, self.cursor, self.app.busy, busy, status.size.width or 120,
-                                          1 if self.has_class("wide") else 2, self.app.watch_label()))
+                                          1 if self.has_class("wide") else 2, self.app.follow_label()))
 
     @on(ControlChart.Clicked)
     def chart_clicked(self, msg: ControlChart.Clicked) -> None:
