@@ -163,9 +163,10 @@ def _overall_sd(stats: C.SubgroupStats, use: np.ndarray, ranges_only: bool = Fal
     if ranges_only:
         from .constants import d2, table
         sd = stats.range / table(stats.n, d2)
-    gm = np.dot(n, stats.mean) / total
+    # plain sums rather than np.dot: a BLAS call may start threads, costly on a loaded machine
+    gm = (n * stats.mean).sum() / total
     var = np.where(n > 1, sd, 0.0)
-    ss = np.dot(n - 1, var * var) + np.dot(n, (stats.mean - gm) ** 2)
+    ss = ((n - 1) * var * var).sum() + (n * (stats.mean - gm) ** 2).sum()
     return float(np.sqrt(ss / (total - 1)))
 
 

@@ -35,6 +35,10 @@ LINE = (110, 135, 165)
 LIMIT = (235, 170, 50)
 CENTRE = (95, 200, 130)
 PHASE = (190, 120, 255)
+LOWER_LINE = (70, 185, 190)
+"""The lower side of a two-sided chart (the CUSUM's −C⁻), drawn below the centre line."""
+LOWER_GLYPH = "·"
+"""A point of the lower side that is in control (flagged ones take their class's glyph)."""
 LEGEND = (("open signal", OPEN), ("explained / no cause", REVIEWED), ("excluded", EXCLUDED))
 
 
@@ -49,6 +53,25 @@ class ChartData:
     lcl: np.ndarray
     ucl: np.ndarray
     codes: np.ndarray
+    lower: np.ndarray | None = None
+    """A second series drawn against the LCL (the CUSUM's −C⁻), or None."""
+    lower_codes: np.ndarray | None = None
+    """Point classes of ``lower`` (flagged only where that side signalled)."""
+
+
+def chart_data(c, codes: np.ndarray) -> ChartData:
+    """The series of a ChartResult to draw; a CUSUM gets −C⁻ as its lower series, and each side
+    shows the flags of the points where that side is beyond H."""
+    if c.name == "cusum" and "cusum-" in c.extra:
+        cp, cm = np.asarray(c.values, float), np.asarray(c.extra["cusum-"], float)
+        with np.errstate(invalid="ignore"):
+            up, down = cp > c.ucl, cm > -c.lcl
+        flagged = (codes == OPEN) | (codes == REVIEWED)
+        upper = np.where(flagged & down & ~up, NORMAL, codes).astype(codes.dtype)
+        lower = np.where(flagged & down, codes, NORMAL).astype(codes.dtype)
+        return ChartData(c.name, f"{c.name} · {c.title} · C⁺ above, −C⁻ below", cp, c.center, c.lcl, c.ucl,
+                         upper, -cm, lower)
+    return ChartData(c.name, f"{c.name} · {c.title}", c.values, c.center, c.lcl, c.ucl, codes)
 
 
 @dataclass(frozen=True, eq=False)
@@ -141,13 +164,14 @@ def build(data: ChartData, win: Window, width: int, height: int, lwidth: int, la
     width, height = max(int(width), lwidth + 12), max(int(height), 4)
     cols = width - lwidth - 2
     tr: Trace = trace(data.values, data.codes, win, cols)
+    low: Trace | None = None if data.lower is None else trace(data.lower, data.lower_codes, win, cols)
     plt = Plot()
     plt.plotsize(width, height)
     plt._set_size(width, height)
     plt.theme("clear")
     limits = {k: limit_trace(a, win, cols, kind) for k, a, kind in
               (("ucl", data.ucl, "max"), ("center", data.center, "first"), ("lcl", data.lcl, "min"))}
-    ys = [tr.lo, tr.hi] + [v for lim in limits.values() if lim is not None
+    ys = [tr.lo, tr.hi] + ([low.lo, low.hi] if low is not None else []) + [v for lim in limits.values() if lim is not None
                            for v in ([lim] if isinstance(lim, float) else [float(lim[1].min()), float(lim[1].max())])]
     ys = [y for y in ys if np.isfinite(y)]
     lo, hi = (min(ys), max(ys)) if ys else (0.0, 1.0)
@@ -163,14 +187,18 @@ def build(data: ChartData, win: Window, width: int, height: int, lwidth: int, la
             plt.plot(lim[0].tolist(), lim[1].tolist(), marker="braille", color=colour)
     if phase2 is not None and win.start < phase2 < win.stop:
         plt.vline(column_of(phase2, win, cols), color=PHASE)
-    if tr.line_x.size:
-        plt.plot(tr.line_x.tolist(), tr.line_y.tolist(), marker="braille", color=LINE)
     spaced = not tr.envelope and (win.size == 1 or (cols - 1) / max(win.size - 1, 1) >= 2)
-    for cls in (NORMAL, REVIEWED, EXCLUDED, OPEN):
-        if cls not in tr.glyphs or (cls == NORMAL and not spaced):
+    for series, colour, normal in ((low, LOWER_LINE, LOWER_GLYPH), (tr, LINE, GLYPH[NORMAL])):
+        if series is None:
             continue
-        gx, gy = tr.glyphs[cls]
-        plt.scatter(gx.tolist(), gy.tolist(), marker=GLYPH[cls], color=COLOUR[cls])
+        if series.line_x.size:
+            plt.plot(series.line_x.tolist(), series.line_y.tolist(), marker="braille", color=colour)
+        for cls in (NORMAL, REVIEWED, EXCLUDED, OPEN):
+            if cls not in series.glyphs or (cls == NORMAL and not spaced):
+                continue
+            gx, gy = series.glyphs[cls]
+            plt.scatter(gx.tolist(), gy.tolist(), marker=normal if cls == NORMAL else GLYPH[cls],
+                        color=colour if cls == NORMAL else COLOUR[cls])
     ticks = axis_labels(data, win, cols)
     plt.yticks([v for v, _ in ticks] or [lo], [t.rjust(lwidth) for _, t in ticks] or [" " * lwidth])
     if xticks:

@@ -9,7 +9,7 @@ from textual import work
 from textual.worker import get_current_worker
 
 from ..messages import ChartsReady
-from ..plotting import ChartData, build, label_width
+from ..plotting import build, chart_data, label_width
 from ..session import Snapshot
 from ..widgets.control_chart import ControlChart
 from ..window import Window, follow, window_at
@@ -46,8 +46,7 @@ class BenchCharts:
     @work(thread=True, exclusive=True, group="charts")
     def _build(self, token: int, snap: Snapshot, win: Window, sizes: list[tuple[int, int]]) -> None:
         a = snap.analysis
-        charts = [ChartData(f"{c.name}", f"{c.name} · {c.title}", c.values, c.center, c.lcl, c.ucl,
-                            snap.marks.codes[c.name]) for c in a.charts[:2]]
+        charts = [chart_data(c, snap.marks.codes[c.name]) for c in a.charts[:2]]
         cols = max(sizes[0][0] - 14, 10)
         lw = label_width(charts, win, cols)
         m = snap.dataset.m

@@ -16,6 +16,9 @@ def comparison_text(a: Analysis) -> Text:
     except Exception as exc:  # a comparison that cannot be made is shown, not raised
         return Text(f"the streams cannot be compared: {exc}")
     if cmp_ is None:
+        if a.dataset.counts is not None:
+            return Text("count data: each stream's rate is in the table above and, over the neighbouring "
+                        "subgroups, in the chart on the left")
         return Text("one stream only (or summary data): nothing to compare")
     t = Text()
     width = max([len(safe(s)) for s in cmp_.streams] + [6])

@@ -17,13 +17,25 @@ HIGHLIGHT = (255, 200, 60)
 
 
 def neighbourhood_text(ds: Dataset, p: int, row: int, width: int, height: int) -> Text:
-    """Readings of each stream over p ± NEIGHBOURS; the stream at ``row`` highlighted."""
-    if ds.values is None:
+    """Readings of each stream over p ± NEIGHBOURS; the stream at ``row`` highlighted.
+
+    Count data show each stream's rate (count / size, or the count when there are no sizes)."""
+    lo, hi = max(0, p - NEIGHBOURS), min(ds.m, p + NEIGHBOURS + 1)
+    if ds.values is not None:
+        block = ds.values[lo:hi]
+    elif ds.counts is not None:
+        counts = np.asarray(ds.counts[lo:hi], dtype=float)
+        if ds.sizes is None:
+            block = counts
+        else:
+            sizes = np.asarray(ds.sizes[lo:hi], dtype=float)
+            with np.errstate(invalid="ignore", divide="ignore"):
+                block = np.where(sizes > 0, counts / sizes, np.nan)
+        block = block.reshape(hi - lo, -1)
+    else:
         return Text("summary data: no readings per stream", style="dim")
     width, height = max(width, 30), max(height, 6)
-    lo, hi = max(0, p - NEIGHBOURS), min(ds.m, p + NEIGHBOURS + 1)
     x = list(range(lo, hi))
-    block = ds.values[lo:hi]
     plt = Plot()
     plt.plotsize(width, height)
     plt._set_size(width, height)

@@ -31,7 +31,11 @@ def subgroup_lines(snap: Snapshot, p: int, width: int = 44) -> Lines:
         out.add(f"time {safe(str(ds.times[p])[:19].replace('T', ' '))}", DIM).end()
     for i, c in enumerate(a.charts):
         code = int(snap.marks.codes[c.name][p])
-        out.add(" · " if i else "", DIM).add(f"{c.name} ").add(fmt(c.values[p]), BOLD)
+        out.add(" · " if i else "", DIM).add(f"{c.name} ")
+        if "cusum-" in c.extra:
+            out.add("C⁺ ").add(fmt(c.values[p]), BOLD).add(" C⁻ ").add(fmt(c.extra["cusum-"][p]), BOLD)
+        else:
+            out.add(fmt(c.values[p]), BOLD)
         out.add(f" {GLYPH[code]}" if code != NORMAL else "", GLYPH_STYLE[code])
     out.end()
     info = st.exclusion_info.get(raw)
