@@ -123,3 +123,34 @@ async def test_an_existing_case_is_offered(in_tmp):
             assert isinstance(app.screen, BenchScreen)
             assert app.snapshot.case_name == name
             await pilot.press("q")
+
+
+async def test_q_in_a_dialog_cancels_it_or_types_it_never_quits(in_tmp):
+    from workbench.tui.dialogs.reason import ReasonDialog
+    app = demo_app()
+    async with app.run_test(size=(120, 36)) as pilot:
+        await settle(pilot)
+        await pilot.press("L")  # the freeze question: buttons only
+        await settle(pilot)
+        assert isinstance(app.screen, ChoiceDialog)
+        await pilot.press("q")
+        await settle(pilot)
+        assert app.is_running and isinstance(app.screen, BenchScreen) and app.snapshot.state.frozen is None
+        await pilot.press("a")  # a note: q is a letter of the text
+        await settle(pilot)
+        assert isinstance(app.screen, ReasonDialog)
+        await pilot.press(*"quick q")
+        assert app.is_running and app.screen.query_one("#reason").value == "quick q"
+        await pilot.press("escape")
+        await settle(pilot)
+        await pilot.press("s")
+        await settle(pilot)
+        dialog = app.screen
+        assert isinstance(dialog, SetupDialog)
+        dialog.query_one("#chart").focus()  # a drop-down list, not a text field
+        await pilot.press("q")
+        await settle(pilot)
+        assert app.is_running and isinstance(app.screen, BenchScreen)
+        assert len(app.snapshot.events) == 1  # nothing was recorded
+        await pilot.press("q")
+    assert app.return_code == 0

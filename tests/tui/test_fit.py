@@ -52,3 +52,23 @@ async def test_fit_view_without_a_specification_offers_the_setup(in_tmp):
         assert isinstance(app.screen, FitScreen) and app.screen.query_one("#fit-body").display
         assert "Cp" in screen_text(app)
         await pilot.press("escape", "q")
+
+
+async def test_the_stability_gate_counts_only_open_signals(in_tmp):
+    from workbench.core.analysis import capability_for, open_signals
+    app = demo_app()
+    async with app.run_test(size=(120, 40)) as pilot:
+        await settle(pilot)
+        total = len(app.snapshot.analysis.signals)
+        await pilot.press("n", "e")
+        await settle(pilot)
+        await pilot.press(*"seal worn", "enter")
+        await settle(pilot)
+        await pilot.press("f")
+        await settle(pilot)
+        cap = app.screen.capability
+        snap = app.snapshot
+        # the gate counts signals not yet explained (issue 7): one explained, one fewer counted
+        assert cap.open_signals == total - 1 == len(open_signals(snap.analysis, snap.state.signal_states))
+        assert cap == capability_for(snap.analysis, snap.state.signal_states)
+        await pilot.press("escape", "q")

@@ -132,3 +132,28 @@ def test_long_labels_keep_their_last_parts():
     assert fit_label("2026-03-02 14:15", 16) == "2026-03-02 14:15"
     assert fit_label("2026-03-02 14:15", 8) == "14:15"
     assert fit_label("batch-000123", 6) == "000123"
+
+
+def test_cusum_draws_the_lower_side_and_flags_it_there():
+    from workbench.core.model import Settings
+    from workbench.tui.plotting import LOWER_GLYPH, build, chart_data, label_width
+    # in control at 10, then a one-sigma drop: the lower sum C⁻ grows past H while C⁺ stays at 0
+    # (Montgomery, Introduction to SQC, tabular CUSUM: C⁻_i = max(0, (mu0 − K) − x_i + C⁻_{i−1})) [definition]
+    rng = np.random.default_rng(11)
+    x = np.r_[rng.normal(10, 1, 40), rng.normal(8.5, 1, 20)]
+    a = analyse(make_dataset(x), Settings(chart="cusum", sigma="known", known_mean=10.0, known_sigma=1.0))
+    c = a.chart_named("cusum")
+    cm = c.extra["cusum-"]
+    codes = marks_for(a, None).codes["cusum"]
+    data = chart_data(c, codes)
+    np.testing.assert_array_equal(data.lower, -cm)
+    down, up = cm > -c.lcl, c.values > c.ucl
+    assert down.any() and not up[down].all()
+    assert (data.lower_codes[down] == OPEN).all() and (data.lower_codes[~down] == NORMAL).all()
+    assert (data.codes[down & ~up] == NORMAL).all()  # the upper side keeps only its own flags
+    win = Window(0, x.size)
+    pic = build(data, win, 150, 24, label_width([data], win, 150), a.dataset.labels, None, True, 1)
+    canvas = "\n".join(pic.plain[pic.top:pic.top + pic.rows])
+    lcl_row = next(i for i, ln in enumerate(pic.plain) if "LCL" in ln)
+    below = "\n".join(pic.plain[lcl_row + 1:pic.top + pic.rows])
+    assert LOWER_GLYPH in canvas and "▲" in below  # −C⁻ drawn, its flagged points beyond −H

@@ -13,7 +13,7 @@ from textual.widgets import Button, Static
 class ChoiceDialog(ModalScreen[str | None]):
     """Pick one of ``choices`` ((id, label) pairs); escape returns None."""
 
-    BINDINGS = [Binding("escape", "cancel", "Cancel", id="dialog-cancel")]
+    BINDINGS = [Binding("escape,q", "cancel", "Cancel", id="dialog-cancel")]
 
     def __init__(self, title: str, message: str, choices: list[tuple[str, str]]) -> None:
         super().__init__(classes="dialog-screen")

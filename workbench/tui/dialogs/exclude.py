@@ -28,7 +28,7 @@ class ExcludeChoice:
 class ExcludeDialog(ModalScreen[ExcludeChoice | None]):
     """Leave a subgroup, or one of its readings, out of the limits."""
 
-    BINDINGS = [Binding("escape", "cancel", "Cancel", id="dialog-cancel")]
+    BINDINGS = [Binding("escape,q", "cancel", "Cancel", id="dialog-cancel")]
 
     def __init__(self, label: str, streams: tuple[str, ...], causes: tuple[str, ...],
                  stream: str | None = None, signal_words: str | None = None,

@@ -22,7 +22,7 @@ KINDS = (("detect", None), ("long: one reading a row, a stream column", "long"),
 class MappingDialog(ModalScreen[LayoutRequest | None]):
     """Say which column holds what; returns the LayoutRequest to load with."""
 
-    BINDINGS = [Binding("escape", "cancel", "Cancel", id="dialog-cancel")]
+    BINDINGS = [Binding("escape,q", "cancel", "Cancel", id="dialog-cancel")]
 
     def __init__(self, message: str, filename: str, columns: tuple[str, ...], samples: dict[str, str],
                  request: LayoutRequest) -> None:

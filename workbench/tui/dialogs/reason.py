@@ -13,7 +13,7 @@ from textual.widgets import Button, Input, Label, Static
 class ReasonDialog(ModalScreen[str | None]):
     """Ask for text; ``required`` refuses an empty answer with a visible message."""
 
-    BINDINGS = [Binding("escape", "cancel", "Cancel", id="dialog-cancel")]
+    BINDINGS = [Binding("escape,q", "cancel", "Cancel", id="dialog-cancel")]
 
     def __init__(self, title: str, prompt: str, confirm: str = "Confirm", required: bool = True,
                  placeholder: str = "", value: str = "", needed: str = "A reason is required") -> None:

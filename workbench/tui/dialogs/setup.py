@@ -56,7 +56,7 @@ def rules_text(spec: str) -> Text:
 class SetupDialog(ModalScreen[SetupResult | None]):
     """Edit the setup; applying it records a settings event in the trail."""
 
-    BINDINGS = [Binding("escape", "cancel", "Cancel", id="dialog-cancel"),
+    BINDINGS = [Binding("escape,q", "cancel", "Cancel", id="dialog-cancel"),
                 Binding("ctrl+s", "apply", "Apply", id="dialog-apply")]
 
     def __init__(self, settings: Settings, author: str, resolved_chart: str) -> None:

@@ -52,6 +52,8 @@ class FitScreen(Screen):
         super().__init__(id="fit")
         self.snap: Snapshot | None = None
         self.token = 0
+        self.capability = None
+        """The capability shown (core Capability; its gate counts the case's open signals)."""
 
     def compose(self) -> ComposeResult:
         yield Static(id="fit-head", markup=False)
@@ -119,7 +121,7 @@ class FitScreen(Screen):
         except Exception as exc:  # the reason is shown in the view
             self.post_message(Computed("fit", token, None, str(exc) or type(exc).__name__))
             return
-        self.post_message(Computed("fit", token, (picture, words)))
+        self.post_message(Computed("fit", token, (picture, words, cap)))
 
     @on(Computed)
     def computed(self, msg: Computed) -> None:
@@ -130,7 +132,7 @@ class FitScreen(Screen):
             text.update(Text(f"No capability figures: {msg.error}", style="bold"))
             self.query_one(FitPlot).show(None)
             return
-        picture, words = msg.result
+        picture, words, self.capability = msg.result
         self.query_one(FitPlot).show(picture)
         text.update(words)
 

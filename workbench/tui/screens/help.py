@@ -28,7 +28,7 @@ def binding_groups() -> list[tuple[str, list[Binding]]]:
     from .trail import TrailScreen
     groups = [("Bench", BenchScreen.BINDINGS), ("Breakdown", BreakdownScreen.BINDINGS), ("Fit", FitScreen.BINDINGS),
               ("Trail", TrailScreen.BINDINGS), ("Everywhere", WorkbenchApp.BINDINGS),
-              ("Dialogs", [Binding("escape", "cancel", "Cancel the dialog", id="dialog-cancel"),
+              ("Dialogs", [Binding("escape,q", "cancel", "Cancel the dialog (q outside a text field)", id="dialog-cancel"),
                            Binding("enter", "confirm", "Confirm (in a text field)", id="dialog-confirm"),
                            Binding("ctrl+s", "apply", "Apply the setup", id="dialog-apply"),
                            Binding("tab", "focus_next", "Next field", id="dialog-next")])]

@@ -92,7 +92,7 @@ class SubgroupPanel(LinesPanel, can_focus=False):
 
 def status_lines(snap: Snapshot, p: int, saving: bool, busy: str = "", width: int = 120,
                  lines: int = 2, following: str | None = None) -> Lines:
-    """Chart kind, sigma and method, limits (at subgroup ``p``), frozen | counts, case file, saved state.
+    """Chart kind, sigma and method, frozen, limits (at subgroup ``p``) | following, counts, case file, saved.
 
     Two lines (or one when ``lines`` is 1); a piece that does not fit its line is left out, and
     numbers get fewer digits when the bar is narrow.
@@ -109,7 +109,7 @@ def status_lines(snap: Snapshot, p: int, saving: bool, busy: str = "", width: in
         g = [("frozen", BOLD_REVERSE)]
         if a.phase2_start is not None:
             g.append((f" Phase II from {safe(a.dataset.labels[a.phase2_start])}", None))
-        setup.append(g)
+        setup.insert(1, g)  # before the limits: they are on the charts' axes too
     words = ("expl.", "no cause", "excl.") if narrow else ("explained", "no cause", "excluded")
     state = (("read-only", BOLD_REVERSE) if snap.readonly else (busy or "saving…", ITALIC) if saving
              else ("saved", DIM))

@@ -1,0 +1,133 @@
+"""Watching on the bench (Phase II): appended rows judged against frozen limits, new signals told."""
+from __future__ import annotations
+
+import shutil
+from pathlib import Path
+
+from workbench.core.casefile import Case
+from workbench.demo import DEMO_DIR
+from workbench.tui.app import WorkbenchApp
+from workbench.tui.session import OpenRequest
+
+from tui_helpers import data_app, screen_text, settle
+
+
+async def _frozen_case(tmp_path):
+    """A case on a copy of the filler demo with its limits frozen in the workbench; (data, case path)."""
+    data = tmp_path / "filler.csv"
+    shutil.copy(DEMO_DIR / "filler_line3.csv", data)
+    app = data_app(data)
+    async with app.run_test(size=(120, 36)) as pilot:
+        await settle(pilot)
+        assert app.screen.check_action("watch", ()) is None  # nothing to watch against before a freeze
+        await pilot.press("L")
+        await settle(pilot)
+        await pilot.click("#choice-freeze")
+        await settle(pilot)
+        assert app.snapshot.state.frozen is not None
+        case_path = app.snapshot.case_path
+        m = app.snapshot.dataset.m
+        await pilot.press("q")
+    return data, case_path, m
+
+
+def _append(data, lines) -> None:
+    with open(data, "a", encoding="utf-8") as fh:
+        fh.write("".join(line + "\n" for line in lines))
+
+
+# Six heads near the demo's 500 mL centre; the planted subgroup has every head about 4 mL high, far
+# beyond the X-bar UCL (Montgomery, Introduction to SQC, ch. 6: a point beyond 3 sigma limits) [definition]
+CALM = "{t},500.1,499.9,500.0,500.2,499.8,500.0"
+HIGH = "{t},504.1,503.9,504.0,504.2,503.8,504.0"
+
+
+async def test_watch_finds_a_planted_point_and_records_it(in_tmp):
+    data, case_path, m = await _frozen_case(in_tmp)
+    app = WorkbenchApp(OpenRequest(case_path), hide_times=True, watch=True, watch_interval=3600, bell=True)
+    bells = []
+    app.bell = lambda: bells.append(1)
+    notes = []
+    async with app.run_test(size=(120, 36), notifications=True) as pilot:
+        real_notify = app.notify
+        app.notify = lambda message, **kw: (notes.append((message, kw.get("severity"))), real_notify(message, **kw))
+        await settle(pilot)
+        assert Path(app.following).resolve() == data.resolve()
+        assert "following filler.csv" in screen_text(app)
+        before = app.snapshot.marks.current
+        app.poll_watch()
+        await settle(pilot)
+        assert app.snapshot.dataset.m == m and not bells  # nothing appended: nothing new
+
+        _append(data, [CALM.format(t="2026-03-03 18:00"), HIGH.format(t="2026-03-03 18:15"),
+                       CALM.format(t="2026-03-03 18:30")])
+        app.poll_watch()
+        await settle(pilot)
+        snap = app.snapshot
+        assert snap.dataset.m == m + 3 and snap.analysis.phase2_start == m
+        new = [r for r in snap.marks.rows if r.first == m + 1 and r.rule == "beyond-limits"]
+        assert new and new[0].chart == "xbar" and new[0].state == "open"
+        assert len(snap.marks.rows) > before
+        assert bells == [1]
+        assert any(sev == "warning" and "2026-03-03 18:15" in msg and "beyond-limits" in msg for msg, sev in notes)
+        # the cursor stayed at the end (it was on the last subgroup) or moves there on request
+        bench = app.screen
+        bench.move_to(m + 1)
+        assert snap.marks.row_at(bench.cursor) is not None  # the signal is in the list, with its breakdown
+        await pilot.press("b")
+        await settle(pilot)
+        assert app.screen.result.verdict
+        await pilot.press("escape")
+        await settle(pilot)
+        from workbench.core.model import Exclusion
+        label = str(snap.dataset.labels[m + 1])
+        app.act(lambda s: s.exclude(Exclusion(label), "fill valve test", signal=new[0].key))  # while following
+        await settle(pilot)
+        assert app.following and app.snapshot.analysis.excluded_subgroups[m + 1]
+        _append(data, [HIGH.format(t="2026-03-03 18:45")])
+        app.poll_watch()
+        await settle(pilot)
+        assert app.snapshot.dataset.m == m + 4 and len(bells) == 2
+        assert app.snapshot.analysis.excluded_subgroups[m + 1]  # the exclusion holds for the new look
+        await pilot.press("q")
+
+    with Case.open(case_path, readonly=True) as case:
+        seen = [ev for ev in case.events if ev.kind == "data-appended"]
+        assert seen and seen[-1].payload["subgroups"] == m + 4
+        assert any(k.startswith("xbar/beyond-limits/") for k in seen[-1].payload["signals"])
+
+
+async def test_the_key_stops_following_and_a_rewritten_file_stops_it(in_tmp):
+    data, case_path, m = await _frozen_case(in_tmp)
+    app = WorkbenchApp(OpenRequest(case_path), hide_times=True, watch_interval=3600, bell=False)
+    app.bell = lambda: (_ for _ in ()).throw(AssertionError("no bell with bell=False"))
+    async with app.run_test(size=(120, 36), notifications=True) as pilot:
+        await settle(pilot)
+        assert app.following is None and app.screen.check_action("watch", ()) is True
+        await pilot.press("w")
+        await settle(pilot)
+        assert Path(app.following).resolve() == data.resolve()
+        await pilot.press("w")
+        await settle(pilot)
+        assert app.following is None and "following filler.csv" not in screen_text(app)
+        await pilot.press("w")
+        await settle(pilot)
+        _append(data, [HIGH.format(t="2026-03-03 18:00")])
+        app.poll_watch()
+        await settle(pilot)
+        assert app.snapshot.dataset.m == m + 1  # judged, and no bell was rung
+        app.act(lambda s: s.unfreeze("back to trial limits"))  # a case action while following
+        await settle(pilot)
+        assert app.following is None and app.snapshot.state.frozen is None
+        assert any("unfrozen" in str(n.message) for n in app._notifications)
+        app.act(lambda s: s.freeze())
+        await settle(pilot)
+        await pilot.press("w")
+        await settle(pilot)
+        assert app.following is not None
+        data.write_text(data.read_text(encoding="utf-8")[:200], encoding="utf-8")  # shrunk
+        app.poll_watch()
+        await settle(pilot)
+        assert app.following is None
+        assert any("shrunk" in str(n.message) for n in app._notifications)
+        await pilot.press("q")
