@@ -157,6 +157,29 @@ def label_width(charts: list[ChartData], win: Window, cols: int) -> int:
     return max([len(t) for c in charts for _, t in axis_labels(c, win, cols)] + [6])
 
 
+REACH = 1.5
+"""The y axis shows at most this many limit-band widths beyond the limits; wilder points are drawn
+clipped at the frame edge, so one outlier cannot squeeze the limit lines onto one row."""
+
+
+def _keep_limits_readable(lo: float, hi: float, limits: dict) -> tuple[float, float]:
+    band = [v for lim in limits.values() if lim is not None
+            for v in ([lim] if isinstance(lim, float) else [float(lim[1].min()), float(lim[1].max())])]
+    band = [v for v in band if np.isfinite(v)]
+    if len(band) < 2 or max(band) <= min(band):
+        return lo, hi
+    b_lo, b_hi = min(band), max(band)
+    reach = REACH * (b_hi - b_lo)
+    return max(lo, b_lo - reach), min(hi, b_hi + reach)
+
+
+def _clip(t: Trace, lo: float, hi: float) -> Trace:
+    """The trace with y values held inside the view (points beyond sit on the frame edge)."""
+    import dataclasses
+    glyphs = {k: (gx, np.clip(gy, lo, hi)) for k, (gx, gy) in t.glyphs.items()}
+    return dataclasses.replace(t, line_y=np.clip(t.line_y, lo, hi), glyphs=glyphs)
+
+
 def build(data: ChartData, win: Window, width: int, height: int, lwidth: int, labels: np.ndarray,
           phase2: int | None, xticks: bool, token: int, caption: str = "") -> Picture:
     """Draw ``data`` over ``win`` at ``width`` x ``height`` cells (labels padded to ``lwidth``)."""
@@ -175,8 +198,11 @@ def build(data: ChartData, win: Window, width: int, height: int, lwidth: int, la
                            for v in ([lim] if isinstance(lim, float) else [float(lim[1].min()), float(lim[1].max())])]
     ys = [y for y in ys if np.isfinite(y)]
     lo, hi = (min(ys), max(ys)) if ys else (0.0, 1.0)
+    lo, hi = _keep_limits_readable(lo, hi, limits)
     span = hi - lo if hi > lo else max(abs(hi), 1.0) * 0.1
     lo, hi = lo - 0.12 * span, hi + 0.12 * span
+    tr = _clip(tr, lo, hi)
+    low = None if low is None else _clip(low, lo, hi)
     plt.xlim(0, cols - 1)
     plt.ylim(lo, hi)
     for key, colour in (("ucl", LIMIT), ("lcl", LIMIT), ("center", CENTRE)):
