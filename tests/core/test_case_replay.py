@@ -228,8 +228,10 @@ def test_limits_gaps_finds_a_before_that_does_not_follow_the_previous_after():
 
 
 def test_default_author_prefers_the_option_then_the_environment_then_user_at_host(monkeypatch):
-    monkeypatch.setattr(C.getpass, "getuser", lambda: "kim")
-    monkeypatch.setattr(C.socket, "gethostname", lambda: "lab-7")
+    import getpass
+    import socket
+    monkeypatch.setattr(getpass, "getuser", lambda: "kim")
+    monkeypatch.setattr(socket, "gethostname", lambda: "lab-7")
     monkeypatch.setenv("WORKBENCH_AUTHOR", "env-author")
     assert C.default_author("opt") == "opt"
     assert C.default_author(None) == "env-author"

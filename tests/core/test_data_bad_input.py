@@ -7,7 +7,6 @@ UTF-8 (RFC 3629) and Windows-1252 (0x81, 0x8D, 0x8F, 0x90, 0x9D are unassigned) 
 """
 from __future__ import annotations
 
-import os
 import re
 
 import pytest

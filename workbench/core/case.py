@@ -3,20 +3,28 @@
 A case's state (setup, exclusions, notes, signal states, frozen limits, cause list) is never
 stored: it is the replay of the trail of events.  Everything here is pure — events in,
 :class:`CaseState` out — and every event is checked as it is applied, so a trail that
-replays is a trail whose every step made sense.  File handling lives in ``casefile.py``.
+replays is a trail whose every step made sense.  File handling lives in ``casefile.py``;
+reading payload pieces and describing events in words, in ``case_text.py``.
 """
 from __future__ import annotations
 
-import getpass
-import os
-import re
-import socket
-import unicodedata
-from dataclasses import dataclass, field, fields
-from datetime import datetime, timezone
+from dataclasses import dataclass, field
+from datetime import datetime
 from typing import Any, Iterable, Mapping
 
-from .model import CHART_KINDS, SIGMA_METHODS, Exclusion, FrozenLimits, Settings, Spec, WorkbenchError
+from .case_text import (  # re-exported: these helpers used to live here
+    _causes, _is_hash, _keys, _opt_str, _str, default_author, describe,
+    describe_trail, exclusion_from_payload, exclusion_order, exclusion_payload, frozen_from_dict, printable,
+    settings_changes, settings_from_dict, utc_now,
+)
+from .model import Exclusion, FrozenLimits, Settings, WorkbenchError
+
+__all__ = [
+    "DEFAULT_CAUSES", "EVENT_KINDS", "FORMAT", "LIMIT_EVENTS", "MARKS", "NOTE_KINDS", "VERSION", "CaseState",
+    "Event", "ExclusionInfo", "Note", "SignalState", "apply", "default_author", "describe", "describe_trail",
+    "exclusion_from_payload", "exclusion_order", "exclusion_payload", "frozen_from_dict", "printable",
+    "replay", "settings_changes", "settings_from_dict", "utc_now",
+]
 
 FORMAT = "workbench.case"
 VERSION = 1
@@ -323,196 +331,3 @@ def apply(state: CaseState, event: Event) -> CaseState:
     b = _Builder.of(state)
     b.apply(event)
     return b.state()
-
-
-# ---- payload pieces -------------------------------------------------------------------------
-
-def exclusion_order(ex: Exclusion) -> tuple[str, bool, str]:
-    """Sort key: by label, a whole subgroup before its single readings (``None`` streams sort first)."""
-    return ex.subgroup, ex.stream is not None, ex.stream or ""
-
-
-def exclusion_payload(target: Exclusion) -> dict[str, Any]:
-    return {"subgroup": target.subgroup, "stream": target.stream}
-
-
-def exclusion_from_payload(p: Mapping[str, Any], where: str) -> Exclusion:
-    return Exclusion(_str(p.get("subgroup"), where, "subgroup", empty=False),
-                     _opt_str(p.get("stream"), where, "stream"))
-
-
-def settings_from_dict(d: Any, where: str) -> Settings:
-    """Settings from stored JSON, every field type-checked (unknown fields are refused)."""
-    if not isinstance(d, dict):
-        raise WorkbenchError(f"{where}: settings must be an object")
-    kw = _typed_fields(Settings, {k: v for k, v in d.items() if k != "spec"}, where, "setting")
-    spec = d.get("spec")
-    if spec is not None:
-        if not isinstance(spec, dict):
-            raise WorkbenchError(f"{where}: spec must be an object or null")
-        kw["spec"] = Spec(**_typed_fields(Spec, spec, where, "spec field"))
-    out = Settings(**kw)
-    if out.chart != "auto" and out.chart not in CHART_KINDS:
-        raise WorkbenchError(f"{where}: unknown chart kind {out.chart!r}")
-    if out.sigma not in SIGMA_METHODS:
-        raise WorkbenchError(f"{where}: unknown sigma method {out.sigma!r}")
-    return out
-
-
-def frozen_from_dict(d: Any, where: str) -> FrozenLimits:
-    if not isinstance(d, dict) or set(d) - {"chart", "center", "sigma", "subgroups", "limits"}:
-        raise WorkbenchError(f"{where}: frozen limits must be an object with chart, center, sigma, subgroups, limits")
-    ok = (isinstance(d.get("chart"), str) and _is_num(d.get("center")) and _is_num(d.get("sigma"))
-          and type(d.get("subgroups")) is int and isinstance(d.get("limits", {}), dict))
-    if not ok:
-        raise WorkbenchError(f"{where}: frozen limits have a missing or mistyped field")
-    return FrozenLimits.from_dict(d)
-
-
-def _typed_fields(cls: type, d: dict, where: str, what: str) -> dict[str, Any]:
-    """Check stored values against the dataclass's annotations (``str | None``, ``float``, ``bool``)."""
-    known = {f.name: {t.strip() for t in str(f.type).split("|")} for f in fields(cls)}
-    out: dict[str, Any] = {}
-    for key, value in d.items():
-        kinds = known.get(key)
-        if kinds is None or key == "spec":
-            raise WorkbenchError(f"{where}: unknown {what} {key!r}")
-        good = ((value is None and "None" in kinds) or (isinstance(value, bool) and "bool" in kinds)
-                or (isinstance(value, str) and "str" in kinds) or (_is_num(value) and "float" in kinds)
-                or (type(value) is int and "int" in kinds))
-        if not good:
-            raise WorkbenchError(f"{where}: {what} {key!r} has the wrong type ({type(value).__name__})")
-        out[key] = float(value) if _is_num(value) and "float" in kinds else value
-    return out
-
-
-def _causes(v: Any, where: str) -> tuple[str, ...]:
-    if not isinstance(v, list) or not all(isinstance(c, str) and c.strip() for c in v) or len(set(v)) != len(v):
-        raise WorkbenchError(f"{where}: causes must be a list of distinct, non-empty names")
-    return tuple(v)
-
-
-def _keys(p: dict, where: str, spec: tuple[set, set]) -> None:
-    need, optional = spec
-    missing = sorted(need - set(p))
-    if missing:
-        raise WorkbenchError(f"{where}: payload lacks {missing[0]!r}")
-    extra = sorted(set(p) - need - optional)
-    if extra:
-        raise WorkbenchError(f"{where}: unknown payload field {extra[0]!r}")
-
-
-def _str(v: Any, where: str, name: str, empty: bool = True) -> str:
-    if not isinstance(v, str) or (not empty and not v.strip()):
-        raise WorkbenchError(f"{where}: {name} must be {'a' if empty else 'a non-empty'} string")
-    return v
-
-
-def _opt_str(v: Any, where: str, name: str) -> str | None:
-    return None if v is None else _str(v, where, name)
-
-
-def _is_num(v: Any) -> bool:
-    return isinstance(v, (int, float)) and not isinstance(v, bool) and v == v and abs(v) != float("inf")
-
-
-def _is_hash(v: Any) -> bool:
-    return isinstance(v, str) and re.fullmatch(r"[0-9a-f]{64}", v) is not None
-
-
-# ---- small helpers for people and views -----------------------------------------------------
-
-def utc_now() -> str:
-    """The current UTC time as ISO 8601 with milliseconds and a ``Z``."""
-    return datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%S.%f")[:-3] + "Z"
-
-
-def default_author(explicit: str | None = None) -> str:
-    """``--author``, else ``WORKBENCH_AUTHOR``, else user@host."""
-    for candidate in (explicit, os.environ.get("WORKBENCH_AUTHOR")):
-        if candidate and candidate.strip():
-            return candidate.strip()
-    try:
-        user = getpass.getuser()
-    except Exception:  # no login name available (containers without a passwd entry)
-        user = "unknown"
-    return f"{user}@{socket.gethostname()}"
-
-
-_ESCAPES = {"\n": "\\n", "\r": "\\r", "\t": "\\t"}
-
-
-def printable(text: str) -> str:
-    """Text with control characters and escape sequences made visible (``"\\x1b"`` -> ``"\\\\x1b"``).
-
-    C0/C1 controls, DEL and invisible format characters (e.g. bidirectional overrides) are
-    shown as escapes; everything else is unchanged.  The stored text is never altered.
-    """
-    out = []
-    for ch in str(text):
-        if ch in _ESCAPES:
-            out.append(_ESCAPES[ch])
-        elif unicodedata.category(ch) in ("Cc", "Cf", "Zl", "Zp"):
-            code = ord(ch)
-            out.append(f"\\x{code:02x}" if code < 0x100 else f"\\u{code:04x}")
-        else:
-            out.append(ch)
-    return "".join(out)
-
-
-def describe(ev: Event) -> str:
-    """One line in plain words for the trail view and reports (text made printable)."""
-    p, q = ev.payload, lambda s: printable(s) if isinstance(s, str) else str(s)
-    if ev.kind in ("exclude", "restore"):
-        what = ("reading " if p.get("stream") is not None else "subgroup ") + q(
-            p["subgroup"] if p.get("stream") is None else f"{p['subgroup']}:{p['stream']}")
-        extra = "".join(f"; {name} {q(p[name])}" for name in ("cause", "signal") if p.get(name))
-        return f"{'excluded' if ev.kind == 'exclude' else 'restored'} {what}: {q(p['reason'])}{extra}"
-    if ev.kind == "note":
-        on = "the case" if p["on"] == "case" else f"{p['on']} {q(p['target'])}"
-        return f"note on {on}: {q(p['text'])}"
-    if ev.kind == "signal":
-        return f"signal {q(p['key'])} marked {p['state']}" + (f": {q(p['note'])}" if p.get("note") else "")
-    if ev.kind == "settings":
-        return "setup changed"
-    if ev.kind == "causes":
-        return "cause list set to " + ", ".join(q(c) for c in p["causes"])
-    if ev.kind == "freeze":
-        return f"limits frozen ({p['frozen'].get('subgroups')} subgroups in Phase I)"
-    if ev.kind == "unfreeze":
-        return f"limits unfrozen: {q(p['reason'])}"
-    if ev.kind == "data-appended":
-        sig = p.get("signals") or []
-        return (f"new data judged: {p['subgroups']} subgroups, {p['rows']} rows, {p['size_bytes']} bytes"
-                + (f"; new signals {', '.join(q(k) for k in sig)}" if sig else "; no new signal"))
-    return "case created"
-
-
-def describe_trail(events: Iterable[Event]) -> list[str]:
-    """:func:`describe` for each event, with the fields a setup change changed."""
-    out, current = [], None
-    for ev in events:
-        line = describe(ev)
-        if ev.kind in ("created", "settings"):
-            new = Settings.from_dict(ev.payload["settings"])
-            if current is not None:
-                line += ": " + ("; ".join(printable(c) for c in settings_changes(current, new)) or "no field changed")
-            current = new
-        out.append(line)
-    return out
-
-
-def settings_changes(old: Settings, new: Settings) -> list[str]:
-    """``name: old → new`` for each setup field that differs (spec fields as ``spec.lsl``)."""
-    a, b = _flat(old.as_dict()), _flat(new.as_dict())
-    return [f"{k}: {a.get(k)} → {b.get(k)}" for k in sorted(set(a) | set(b)) if a.get(k) != b.get(k)]
-
-
-def _flat(d: dict, prefix: str = "") -> dict[str, Any]:
-    out: dict[str, Any] = {}
-    for k, v in d.items():
-        if isinstance(v, dict):
-            out.update(_flat(v, f"{prefix}{k}."))
-        else:
-            out[prefix + k] = v
-    return out
