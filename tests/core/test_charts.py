@@ -162,3 +162,16 @@ def test_wrong_chart_for_data_is_refused():
         analyse(make_dataset(np.ones(5)), Settings(chart="xbar-r"))
     with pytest.raises(WorkbenchError):
         analyse(make_dataset(np.ones((5, 3))), Settings(sigma="mrbar"))
+
+
+def test_overall_sd_with_few_exclusions_equals_numpy():
+    # the cached-moments update must equal a direct sample SD (numpy.std, ddof=1, as the reference)
+    rng = np.random.default_rng(21)
+    v = rng.normal(3, 2, (400, 5))
+    v[17, 2] = np.nan
+    ex = [Exclusion("5"), Exclusion("300"), Exclusion("18", "S1")]
+    a = analyse(make_dataset(v), Settings(), ex)
+    keep = v.copy()
+    keep[[4, 299]] = np.nan
+    keep[17, 0] = np.nan
+    assert a.sigma_overall == pytest.approx(np.nanstd(keep, ddof=1), rel=1e-12)

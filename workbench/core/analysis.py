@@ -146,28 +146,52 @@ def _reading_stats(ds: Dataset, cells: np.ndarray, sub: np.ndarray) -> C.Subgrou
     return C.SubgroupStats(n=n, mean=mean, range=rng, sd=sd)
 
 
-def _overall_sd(stats: C.SubgroupStats, use: np.ndarray, ranges_only: bool = False) -> float:
+def _moments(n: np.ndarray, mean: np.ndarray, sd: np.ndarray) -> tuple[float, float, float]:
+    """(N, grand mean, M2) of the readings behind subgroup statistics; M2 = Σ(nᵢ−1)sᵢ² + Σnᵢ(x̄ᵢ − x̿)²."""
+    n = n.astype(float)
+    total = n.sum()
+    if total == 0:
+        return 0.0, float("nan"), 0.0
+    gm = (n * mean).sum() / total  # plain sums rather than np.dot: a BLAS call may start threads
+    var = np.where(n > 1, sd, 0.0)
+    return float(total), float(gm), float(((n - 1) * var * var).sum() + (n * (mean - gm) ** 2).sum())
+
+
+def _overall_sd(stats: C.SubgroupStats, use: np.ndarray, ranges_only: bool = False,
+                incremental: bool = True) -> float:
     """Sample SD of all used readings, from the subgroup statistics.
 
     Total sum of squares = Σ(nᵢ−1)sᵢ² + Σnᵢ(x̄ᵢ − x̿)², the one-way decomposition; exact for
-    readings, and for summary data with ranges only sᵢ is estimated by Rᵢ/d2(nᵢ).
+    readings, and for summary data with ranges only sᵢ is estimated by Rᵢ/d2(nᵢ).  When only a few
+    subgroups are left out, their share is removed from the cached moments of all subgroups (the
+    pairwise update of Chan, Golub & LeVeque 1983, run backwards), so a recompute stays O(excluded).
     """
-    sel = use & (stats.n > 0)
-    if not sel.all():
-        stats = C.SubgroupStats(n=stats.n[sel], mean=stats.mean[sel], range=stats.range[sel], sd=stats.sd[sel])
-    n = stats.n.astype(float)
-    total = n.sum()
-    if total < 2:
-        return float("nan")
     sd = stats.sd
     if ranges_only:
         from .constants import d2, table
         sd = stats.range / table(stats.n, d2)
-    # plain sums rather than np.dot: a BLAS call may start threads, costly on a loaded machine
-    gm = (n * stats.mean).sum() / total
-    var = np.where(n > 1, sd, 0.0)
-    ss = ((n - 1) * var * var).sum() + (n * (stats.mean - gm) ** 2).sum()
-    return float(np.sqrt(ss / (total - 1)))
+    present = stats.n > 0
+    left_out = np.flatnonzero(present & ~use)
+    if incremental and left_out.size * 20 < stats.n.size and not ranges_only:
+        full = stats.__dict__.get("_moments")
+        if full is None:
+            full = _moments(stats.n[present], stats.mean[present], sd[present])
+            object.__setattr__(stats, "_moments", full)
+        n_all, m_all, m2_all = full
+        n_e, m_e, m2_e = _moments(stats.n[left_out], stats.mean[left_out], sd[left_out])
+        n_r = n_all - n_e
+        if n_r < 2:
+            return float("nan")
+        if n_e == 0:
+            return float(np.sqrt(m2_all / (n_all - 1)))
+        m_r = (n_all * m_all - n_e * m_e) / n_r
+        m2_r = m2_all - m2_e - (m_e - m_r) ** 2 * n_e * n_r / n_all
+        return float(np.sqrt(max(m2_r, 0.0) / (n_r - 1)))
+    sel = use & present
+    total, _gm, m2 = _moments(stats.n[sel], stats.mean[sel], sd[sel])
+    if total < 2:
+        return float("nan")
+    return float(np.sqrt(m2 / (total - 1)))
 
 
 def analyse(dataset: Dataset, settings: Settings = Settings(), exclusions: Iterable[Exclusion] = (),
@@ -256,7 +280,9 @@ def analyse(dataset: Dataset, settings: Settings = Settings(), exclusions: Itera
     if ds.is_summary and ds.summary_sd is None:
         warnings.append("summary data with ranges only: the overall sigma uses R/d2 for each subgroup's SD")
 
-    sigma_overall = _overall_sd(stats, use, ranges_only=ds.is_summary and ds.summary_sd is None)
+    # with frozen limits the direct sum keeps Phase II extension (phase2.extend) bit-identical
+    sigma_overall = _overall_sd(stats, use, ranges_only=ds.is_summary and ds.summary_sd is None,
+                                incremental=frozen is None)
     charts, signals = _apply_rules(ds, base, settings, chart)
     return Analysis(
         dataset=ds, settings=settings, exclusions=excl, chart=chart, sigma_method=sigma_method,

@@ -197,11 +197,12 @@ def evaluate(values, center, sigma, lcl, ucl, excluded, ruleset: RuleSet) -> dic
     """
     keep = ~np.asarray(excluded, bool) & np.isfinite(values)
     idx = np.flatnonzero(keep)
+    needs_centre = set(ruleset.ids) != {"beyond-limits"}
     if idx.size == values.size:
         x, c, s, lo, hi = values, center, sigma, lcl, ucl
     else:
-        x, c, s = values[idx], center[idx], sigma[idx]
-        lo, hi = lcl[idx], ucl[idx]
+        x, lo, hi = values[idx], lcl[idx], ucl[idx]
+        c, s = (center[idx], sigma[idx]) if needs_centre else (None, None)
     out: dict[str, Firing] = {}
     z = _zscores(x, c, s) if set(ruleset.ids) - {"beyond-limits", "same-side", "trend", "alternating"} else None
     for rid in ruleset.ids:

@@ -50,15 +50,15 @@ def group_firings(chart: str, rule: str, description: str, fired_c: np.ndarray, 
     heads = np.flatnonzero(new)
     lo = starts[heads]
     hi = fired_c[np.r_[heads[1:] - 1, n - 1]]
-    size = index.size
-    cover = np.zeros(size + 1, np.int32)
-    np.add.at(cover, lo, 1)
-    np.add.at(cover, hi + 1, -1)
-    covered = np.cumsum(cover[:-1]) > 0
+    # expand each group's covered range [lo, hi] (O(points), not O(series)), then keep the members
+    lengths = hi - lo + 1
+    gid = np.repeat(np.arange(lo.size), lengths)
+    starts_of = np.cumsum(lengths) - lengths
+    pts_c = np.arange(int(lengths.sum())) - np.repeat(starts_of, lengths) + np.repeat(lo, lengths)
     if members is not None:
-        covered &= members
-    pts_c = np.flatnonzero(covered)
-    point_ptr = np.searchsorted(pts_c, np.r_[lo, hi[-1] + 1])
+        keep = members[pts_c]
+        pts_c, gid = pts_c[keep], gid[keep]
+    point_ptr = np.searchsorted(gid, np.arange(lo.size + 1))
     points = index[pts_c]
     first = points[point_ptr[:-1]]
     last = points[point_ptr[1:] - 1]
