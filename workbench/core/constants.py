@@ -18,7 +18,7 @@ from functools import lru_cache
 from math import exp, lgamma, sqrt
 
 import numpy as np
-from scipy import special
+from .tails import log_norm_cdf, norm_cdf
 
 from .model import WorkbenchError
 
@@ -41,7 +41,17 @@ def _rule(points: int) -> tuple[np.ndarray, np.ndarray]:
 def _outer() -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     t, w = _rule(400)
     x = t * _L
-    return x, w * _L, special.ndtr(x), special.log_ndtr(x), special.log_ndtr(-x)
+    return x, w * _L, norm_cdf(x), log_norm_cdf(x), log_norm_cdf(-x)
+
+
+@lru_cache(maxsize=1)
+def _inner() -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Nodes of the inner integral over y in (-L, x) for each outer node x: Φ(y), log(1 − Φ(y)), weights."""
+    t, wt = _rule(200)
+    xo = _outer()[0][:, None]
+    half = (xo + _L) / 2.0
+    y = half * t[None, :] + (xo - _L) / 2.0
+    return norm_cdf(y), log_norm_cdf(-y), half * wt[None, :]
 
 
 def _check_n(n: int) -> int:
@@ -95,16 +105,10 @@ def d3(n: int) -> float:
     n = _check_n(n)
     # Inner integral over y in (-L, x) for each outer node x, by a Gauss-Legendre rule mapped
     # onto that interval.
-    t, wt = _rule(200)
-    xo, wo, phi_o, log_phi_o, _ = _outer()
-    x = xo[:, None]
-    half = (x + _L) / 2.0
-    y = half * t[None, :] + (x - _L) / 2.0  # nodes on (-L, x)
-    wy = half * wt[None, :]
-    phi_x = phi_o[:, None]
-    phi_y = special.ndtr(y)
-    diff = np.clip(phi_x - phi_y, 0.0, 1.0)
-    f = 1.0 - np.exp(n * log_phi_o)[:, None] - np.exp(n * special.log_ndtr(-y)) + diff**n
+    _xo, wo, phi_o, log_phi_o, _ = _outer()
+    phi_y, log_1m_phi_y, wy = _inner()
+    diff = np.clip(phi_o[:, None] - phi_y, 0.0, 1.0)
+    f = 1.0 - np.exp(n * log_phi_o)[:, None] - np.exp(n * log_1m_phi_y) + diff**n
     inner = np.sum(f * wy, axis=1)
     ew2 = 2.0 * float(np.dot(wo, inner))
     return sqrt(max(ew2 - d2(n) ** 2, 0.0))

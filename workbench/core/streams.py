@@ -6,8 +6,8 @@ subgroup range that disappears when that stream's reading is left out: (R − R�
 zero for a stream inside the range and large for a reading that alone sets an extreme.
 
 For the whole dataset the streams are compared with a one-way ANOVA and the Kruskal–Wallis
-test (computed here with numpy and the F and chi-square tails of scipy.special, so a report
-does not pay for importing scipy.stats; the tests check both against scipy.stats), and the variance is split into between-stream and within-stream
+test (computed here with numpy and the F and chi-square tails of :mod:`workbench.core.tails`, so a
+report does not pay for importing scipy; the tests check both against scipy.stats), and the variance is split into between-stream and within-stream
 components (one-way random-effects model, method of moments).
 
 References
@@ -20,7 +20,7 @@ Kruskal, W. H. & Wallis, W. A. (1952). Use of ranks in one-criterion variance an
 from __future__ import annotations
 
 import numpy as np
-from scipy import special
+from .tails import chi2_sf, f_sf
 
 from .model import Analysis, Breakdown, StreamComparison, StreamRow
 
@@ -61,7 +61,7 @@ def compare(a: Analysis) -> StreamComparison | None:
         msb, msw = ssb / (k - 1), ssw / (big_n - k)
         with np.errstate(all="ignore"):
             f = _num(msb / msw) if msw > 0 else None
-            p = _num(special.fdtrc(k - 1, big_n - k, f)) if f is not None else None
+            p = _num(f_sf(f, k - 1, big_n - k)) if f is not None else None
             h, hp = kruskal_wallis(valid)
         n0 = (big_n - (sizes ** 2).sum() / big_n) / (k - 1)
         vb, vw = max(0.0, (msb - msw) / n0), float(msw)
@@ -84,7 +84,7 @@ def kruskal_wallis(groups: list[np.ndarray]) -> tuple[float | None, float | None
     """
     x = np.concatenate(groups)
     big_n = x.size
-    order = np.argsort(x, kind="mergesort")
+    order = np.argsort(x)  # ties get their mean rank below, so the sort need not be stable
     xs = x[order]
     # average ranks of ties: ranks of each run of equal values share their mean
     starts = np.flatnonzero(np.r_[True, xs[1:] != xs[:-1]])
@@ -98,7 +98,7 @@ def kruskal_wallis(groups: list[np.ndarray]) -> tuple[float | None, float | None
     bounds = np.cumsum([0] + [g.size for g in groups])
     h = 12.0 / (big_n * (big_n + 1.0)) * sum(ranks[a:b].sum() ** 2 / (b - a) for a, b in zip(bounds, bounds[1:]))
     h = (h - 3.0 * (big_n + 1)) / ties
-    return _num(h), _num(special.chdtrc(len(groups) - 1, h))
+    return _num(h), _num(chi2_sf(h, len(groups) - 1))
 
 
 def _num(x) -> float | None:
