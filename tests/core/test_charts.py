@@ -175,3 +175,15 @@ def test_overall_sd_with_few_exclusions_equals_numpy():
     keep[[4, 299]] = np.nan
     keep[17, 0] = np.nan
     assert a.sigma_overall == pytest.approx(np.nanstd(keep, ddof=1), rel=1e-12)
+
+
+@pytest.mark.parametrize("chart,sigma", [("xbar-r", "rbar"), ("xbar-s", "sbar")])
+def test_sigma_with_a_few_exclusions_equals_the_direct_mean(chart, sigma):
+    # R̄/d2 and S̄/c4 over the remaining subgroups [definition], against numpy on the same readings
+    rng = np.random.default_rng(13)
+    v = rng.normal(0, 1, (200, 5))
+    a = analyse(make_dataset(v), Settings(chart=chart, sigma=sigma), [Exclusion("7"), Exclusion("150")])
+    keep = np.delete(v, [6, 149], axis=0)
+    ref = (np.ptp(keep, axis=1).mean() / K.d2(5) if sigma == "rbar"
+           else keep.std(axis=1, ddof=1).mean() / K.c4(5))
+    assert a.sigma_within == pytest.approx(ref, rel=1e-12)

@@ -247,7 +247,7 @@ def analyse(dataset: Dataset, settings: Settings = Settings(), exclusions: Itera
         if frozen is not None:
             sigma, center = frozen.sigma, frozen.center
         else:
-            sigma = C.estimate_sigma(sigma_method, stats, use, settings.known_sigma)
+            sigma = C.estimate_sigma(sigma_method, stats, use, settings.known_sigma)  # Phase I only
             if known_mean is not None:
                 center = float(known_mean)
             else:
@@ -294,6 +294,11 @@ def analyse(dataset: Dataset, settings: Settings = Settings(), exclusions: Itera
 
 
 def _subgroup_warnings(chart: str, stats: C.SubgroupStats, warnings: list[str]) -> None:
+    warnings.extend(C._cached(stats, "_warnings_" + chart, lambda: _size_warnings(chart, stats)))
+
+
+def _size_warnings(chart: str, stats: C.SubgroupStats) -> list[str]:
+    warnings: list[str] = []
     n = stats.n[stats.n > 0]
     if n.size and n.min() != n.max():
         if chart == "xbar-r":
@@ -306,6 +311,7 @@ def _subgroup_warnings(chart: str, stats: C.SubgroupStats, warnings: list[str]) 
     single = int(np.sum(stats.n == 1))
     if single:
         warnings.append(f"{single} subgroup(s) hold a single reading and have no range or SD")
+    return tuple(warnings)
 
 
 def _small_shift(chart: str, loc: ChartResult, center: float, settings: Settings, labels: np.ndarray,

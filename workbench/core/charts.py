@@ -87,6 +87,10 @@ def estimate_sigma(method: str, stats: SubgroupStats, use: np.ndarray, known: fl
             raise WorkbenchError("the known sigma must be a positive number (--known-sigma)")
         return float(known)
     sel = use & (stats.n >= 2)
+    if method in ("rbar", "sbar"):
+        fast = _mean_of_units(method, stats, use)
+        if fast is not None:
+            return fast
     if not sel.any():
         return float("nan")
     n = stats.n[sel]
@@ -101,15 +105,46 @@ def estimate_sigma(method: str, stats: SubgroupStats, use: np.ndarray, known: fl
     raise WorkbenchError(f"sigma method {method!r} does not apply to subgrouped data")
 
 
+def _cached(stats: SubgroupStats, key: str, make):
+    """A value derived from ``stats`` alone, computed once and kept on the (immutable) stats object."""
+    v = stats.__dict__.get(key)
+    if v is None:
+        v = make()
+        object.__setattr__(stats, key, v)
+    return v
+
+
+def _mean_of_units(method: str, stats: SubgroupStats, use: np.ndarray) -> float | None:
+    """R̄/d2 or S̄/c4 as the mean of Rᵢ/d2(nᵢ) (sᵢ/c4(nᵢ)) when only a few subgroups are left out.
+
+    The sum over every subgroup is cached; the left-out ones are subtracted, so an interactive
+    exclusion costs O(excluded) here.  Returns None when the direct mean is cheaper.
+    """
+    def make():
+        unit = (stats.range / K.table(stats.n, K.d2) if method == "rbar" else stats.sd / K.table(stats.n, K.c4))
+        ok = np.isfinite(unit) & (stats.n >= 2)
+        return unit, ok, float(unit[ok].sum()), int(ok.sum())
+    unit, ok, total, count = _cached(stats, "_units_" + method, make)
+    out = np.flatnonzero(ok & ~use)
+    if out.size * 20 >= ok.size:
+        return None
+    k = count - out.size
+    return (total - float(unit[out].sum())) / k if k > 0 else float("nan")
+
+
 def _const(m: int, v: float) -> np.ndarray:
     return np.full(m, v, dtype=float)
 
 
 def xbar_chart(stats: SubgroupStats, center: float, sigma: float, excluded: np.ndarray) -> ChartResult:
     m = stats.n.size
-    with np.errstate(divide="ignore", invalid="ignore"):
-        s = sigma / np.sqrt(stats.n.astype(float))
-    s[stats.n == 0] = np.nan
+
+    def inv_sqrt_n():
+        with np.errstate(divide="ignore", invalid="ignore"):
+            r = 1.0 / np.sqrt(stats.n.astype(float))
+        r[stats.n == 0] = np.nan
+        return r
+    s = sigma * _cached(stats, "_inv_sqrt_n", inv_sqrt_n)
     c = _const(m, center)
     return ChartResult("xbar", "Subgroup mean", "location", stats.mean, c, c - 3 * s, c + 3 * s, s,
                        excluded, {})
