@@ -3,6 +3,12 @@
 The picture (plotext output already cut into strips) is built off the UI thread for one window
 of subgroups.  Moving the cursor only repaints two one-cell-wide columns: the old and the new
 cursor position — no plotext, nothing proportional to the series or even to the picture.
+
+The chart has no border, padding, tint or opacity, so what Textual's styles cache would make of a
+line is the line itself with the app's line filters applied.  ``render_lines`` keeps those finished
+lines (the picture's, and the cursor column's) and hands them out again, so a cursor move costs a
+few new cursor cells instead of re-rendering every line it crosses; a chart that is styled in a way
+that changes its lines goes through the styles cache as any widget does.
 """
 from __future__ import annotations
 
@@ -49,6 +55,13 @@ class ControlChart(PlotextPlot):
         self._base = Style()
         self._styled: tuple[Strip, ...] | None = None
         self._runs: dict[int, tuple[list, list[int], bool]] = {}
+        self._done_key: tuple | None = None
+        self._done_styled: tuple[Strip, ...] | None = None
+        self._done: dict[int, Strip] = {}
+        """Finished lines (filters applied) without the cursor, by line, for ``_done_key``."""
+        self._done_cursor: dict[int, Strip] = {}
+        """Finished lines with the cursor, by line, for the cursor column ``_cursor_x``."""
+        self._cursor_x: int | None = None
 
     def show(self, picture: Picture | None, codes: np.ndarray | None = None) -> None:
         self.picture, self.codes, self._styled = picture, codes, None
@@ -77,7 +90,53 @@ class ControlChart(PlotextPlot):
         base = self.rich_style
         if base != self._base:
             self._base, self._styled = base, None
-        return super().render_lines(crop)
+        if not self._plain():
+            self._done_key = None
+            return super().render_lines(crop)
+        return self._finished_lines(crop)
+
+    def _plain(self) -> bool:
+        """True when the styles cache would pass lines through unchanged (bar the line filters)."""
+        styles = self.styles
+        return not (self.BLANK or any(styles.padding) or any(edge for edge, _ in styles.border)
+                    or any(edge for edge, _ in styles.outline) or styles.tint.a or styles.text_opacity != 1.0
+                    or (styles.has_rule("hatch") and styles.hatch != "none") or self.opacity != 1.0
+                    or (self.auto_links and self.hover_style._link_id))
+
+    def _finished_lines(self, crop) -> list[Strip]:
+        """Lines as the styles cache would finish them, from this widget's own cache of them."""
+        self._styles_cache.clear()  # so a later trip through it cannot show stale lines
+        base_background, background = self.background_colors
+        filters = tuple(self.get_line_filters())
+        size, width, height = self.size, *self.content_region.size  # no gutter: region == content
+        col = self.cursor_column()
+        pic = self.picture
+        x = None if col is None or pic is None else pic.left + col
+        key = (self.picture, self.placeholder, self._base, size, width, height, background, base_background, filters)
+        styled = self._lines() if pic is not None else None  # rebuilt after a resize, even at the same size
+        if key != self._done_key or styled is not self._done_styled:
+            self._done_key, self._done_styled = key, styled
+            self._done, self._done_cursor, self._cursor_x = {}, {}, x
+        elif x != self._cursor_x:
+            self._done_cursor, self._cursor_x = {}, x
+        inner = self._styles_cache.get_inner_outer(base_background, background)[0].rich_style
+        done, done_cursor = self._done, self._done_cursor
+        rows = range(pic.top, pic.top + pic.rows) if x is not None else range(0)
+        strips = []
+        for y in crop.line_range:
+            cache = done_cursor if y in rows else done
+            strip = cache.get(y)
+            if strip is None:
+                strip = (self.render_line(y).adjust_cell_length(width, inner) if y < height
+                         else Strip.blank(width, inner))
+                for line_filter in filters:
+                    strip = strip.apply_filter(line_filter, background)
+                cache[y] = strip
+            strips.append(strip)
+        if crop.column_span != (0, width):
+            x1, x2 = crop.column_span
+            strips = [strip.crop(x1, x2) for strip in strips]
+        return strips
 
     def _lines(self) -> tuple[Strip, ...]:
         """The picture's strips with the widget's base style applied (once per picture and style)."""
