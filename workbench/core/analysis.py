@@ -263,11 +263,13 @@ def analyse(dataset: Dataset, settings: Settings = Settings(), exclusions: Itera
     if chart in ("ewma", "cusum"):
         base[0] = _small_shift(chart, base[0], center, settings, ds.labels, warnings)
 
+    # with frozen limits the direct sum keeps Phase II extension (phase2.extend) bit-identical
+    sigma_overall = _overall_sd(stats, use, ranges_only=ds.is_summary and ds.summary_sd is None,
+                                incremental=frozen is None)
     if not np.isfinite(sigma):
         warnings.append("sigma could not be estimated (too few readings): no limits")
     elif sigma == 0:
-        if np.isfinite(sigma_overall := _overall_sd(stats, use, ds.is_summary and ds.summary_sd is None)) \
-                and sigma_overall > 0:
+        if np.isfinite(sigma_overall) and sigma_overall > 0:
             warnings.append("no spread within subgroups: sigma is 0 and the limits collapse onto the centre line "
                             "(readings rounded to the gauge resolution, or copied values?)")
         else:
@@ -279,10 +281,6 @@ def analyse(dataset: Dataset, settings: Settings = Settings(), exclusions: Itera
                         "uncertain (common practice asks for 20-25)")
     if ds.is_summary and ds.summary_sd is None:
         warnings.append("summary data with ranges only: the overall sigma uses R/d2 for each subgroup's SD")
-
-    # with frozen limits the direct sum keeps Phase II extension (phase2.extend) bit-identical
-    sigma_overall = _overall_sd(stats, use, ranges_only=ds.is_summary and ds.summary_sd is None,
-                                incremental=frozen is None)
     charts, signals = _apply_rules(ds, base, settings, chart)
     return Analysis(
         dataset=ds, settings=settings, exclusions=excl, chart=chart, sigma_method=sigma_method,

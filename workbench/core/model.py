@@ -364,17 +364,6 @@ class ChartResult:
             return a.size == 0 or bool(np.all(a == a[0]))
         return same(self.center) and same(self.lcl) and same(self.ucl)
 
-    def limit_summary(self) -> dict[str, Any]:
-        """Centre / LCL / UCL as numbers when constant, else lists (NaN -> None)."""
-        def conv(a: np.ndarray) -> Any:
-            finite = a[np.isfinite(a)]
-            if finite.size == 0:
-                return None
-            if np.all(finite == finite[0]) and finite.size == np.isfinite(a).sum() and np.isfinite(a).all():
-                return float(finite[0])
-            return [None if not np.isfinite(v) else float(v) for v in a.tolist()]
-        return {"center": conv(self.center), "lcl": conv(self.lcl), "ucl": conv(self.ucl)}
-
 
 @dataclass(frozen=True)
 class Signal:
