@@ -11,7 +11,7 @@ import sys
 from pathlib import Path
 from typing import NoReturn, Sequence
 
-from .core.model import CHART_KINDS, SIGMA_METHODS, Exclusion, LayoutRequest, Settings, WorkbenchError
+from workbench.core.model import CHART_KINDS, SIGMA_METHODS, Exclusion, LayoutRequest, Settings, WorkbenchError
 
 
 class _Parser(argparse.ArgumentParser):
@@ -107,14 +107,14 @@ def settings_from_args(args: argparse.Namespace, base: Settings | None = None) -
             spec[key] = v
     d["spec"] = spec or None
     settings = Settings.from_dict(d)
-    from .core.rules import resolve
+    from workbench.core.charts.rules import resolve
     if settings.rules:
         resolve(settings.rules)
     resolve(settings.spread_rules)
     if settings.spec is not None:
         if settings.spec.lsl is None and settings.spec.usl is None:
             raise WorkbenchError("capability options need a specification: give --lsl and/or --usl")
-        from .core.capability import validate_spec
+        from workbench.core.capability.assess import validate_spec
         validate_spec(settings.spec)
     return settings
 
@@ -134,17 +134,17 @@ def is_case_path(path: str) -> bool:
 
 
 def cmd_report(args: argparse.Namespace) -> int:
-    from .core.analysis import analyse, open_signals
-    from .core.report import render
+    from workbench.core.analysis import analyse, open_signals
+    from workbench.core.report import render
     states = None
     extra = ""
     if is_case_path(args.path):
-        from .core.casefile import Case
-        from .core import case_report
+        from workbench.core.case.casefile import Case
+        from workbench.core.case import review as case_report
         case = Case.open(args.path, readonly=True)
         for n in case.notices:
             print(f"workbench: {n}", file=sys.stderr)
-        from .core.case_format import check_data
+        from workbench.core.case.format import check_data
         status = check_data(case.data, case.path)
         if not status.usable:
             return _report_case_without_data(case, args, status.message)
@@ -157,14 +157,14 @@ def cmd_report(args: argparse.Namespace) -> int:
             import json
             obj = json.loads(text)
             obj["case"] = case_report.case_report_json(case, a)
-            from .core.report import dumps
+            from workbench.core.report import dumps
             text = dumps(obj) + "\n"
         elif fmt_name == "markdown":
             extra = case_report.case_report_markdown(case, a)
         else:
             extra = case_report.case_report_text(case, a)
     else:
-        from .core.data import load
+        from workbench.core.data.reader import load
         ds = load(args.path, layout_request_from_args(args))
         settings = settings_from_args(args, _default_settings_for(args.path))
         excl = [e for e, _ in _parse_exclusions(args.exclude, ds.streams)]
@@ -184,8 +184,8 @@ def _report_case_without_data(case, args: argparse.Namespace, why: str) -> int:
     """The case part alone (trail, exclusions, notes, integrity) when its data are missing or changed.
 
     Exit 1: the review is incomplete, but an auditor still gets the record and the reason."""
-    from .core import case_report
-    from .core.report import dumps
+    from workbench.core.case import review as case_report
+    from workbench.core.report import dumps
     print(f"workbench: {why}: the data part of the report is left out", file=sys.stderr)
     if args.format == "json":
         out = dumps({"schema": "workbench.report/1", "data_unavailable": why,
@@ -204,24 +204,24 @@ def _report_case_without_data(case, args: argparse.Namespace, why: str) -> int:
 
 def _default_settings_for(path: str) -> Settings | None:
     """The bundled demo carries its own specification; other files start from the defaults."""
-    from .demo import demo_settings_for
+    from workbench.demo import demo_settings_for
     return demo_settings_for(path)
 
 
 def cmd_open(args: argparse.Namespace) -> int:
-    from .tui.app import run_app
+    from workbench.tui.app import run_app
     return run_app(args)
 
 
 def cmd_bench(args: argparse.Namespace) -> int:
-    from .bench import run_bench
+    from workbench.perf import run_bench
     return run_bench(args.subgroups, args.streams_n, quick=args.quick)
 
 
 def build_parser() -> argparse.ArgumentParser:
     p = _Parser(prog="workbench", description="Terminal workbench for investigating SPC signals. "
                 "With no command, opens the bundled demo.")
-    from . import __version__
+    from workbench import __version__
     p.add_argument("--version", action="version", version=f"workbench {__version__}")
     sub = p.add_subparsers(dest="command", parser_class=_Parser)
 
@@ -253,12 +253,12 @@ def build_parser() -> argparse.ArgumentParser:
     b.set_defaults(func=cmd_bench)
 
     try:
-        from . import cli_case
+        from workbench import cli_case
         cli_case.register(sub)
     except ImportError:
         pass
     try:
-        from . import cli_watch
+        from workbench import cli_watch
         cli_watch.register(sub)
     except ImportError:
         pass

@@ -9,9 +9,9 @@ import argparse
 import sys
 from typing import Any
 
-from .core.case import MARKS, Event, describe_trail, printable
-from .core.model import Exclusion, WorkbenchError
-from .core.report import fmt
+from workbench.core.case.events import MARKS, Event, describe_trail, printable
+from workbench.core.model import Exclusion, WorkbenchError
+from workbench.core.report import fmt
 
 
 def _notices(case: Any) -> None:
@@ -20,7 +20,7 @@ def _notices(case: Any) -> None:
 
 
 def _open(args: argparse.Namespace, readonly: bool = False):
-    from .core.casefile import Case
+    from workbench.core.case.casefile import Case
     case = Case.open(args.case, readonly=readonly, author=getattr(args, "author", None))
     _notices(case)
     if case.readonly and not readonly:
@@ -51,11 +51,11 @@ def _done(case: Any) -> int:
 
 
 def cmd_new(args: argparse.Namespace) -> int:
-    from .cli import layout_request_from_args, settings_from_args
-    from .core.analysis import analyse, limits_snapshot
-    from .core.casefile import Case
-    from .core.data import load
-    from .demo import demo_settings_for
+    from workbench.cli import layout_request_from_args, settings_from_args
+    from workbench.core.analysis import analyse, limits_snapshot
+    from workbench.core.case.casefile import Case
+    from workbench.core.data.reader import load
+    from workbench.demo import demo_settings_for
     request = layout_request_from_args(args)
     settings = settings_from_args(args, demo_settings_for(args.data))
     dataset = load(args.data, request)
@@ -98,7 +98,7 @@ def cmd_mark(args: argparse.Namespace) -> int:
 
 
 def cmd_set(args: argparse.Namespace) -> int:
-    from .cli import settings_from_args
+    from workbench.cli import settings_from_args
     with _open(args) as case:
         case.record_settings(case.load_dataset(), settings_from_args(args, case.state.settings))
         return _done(case)
@@ -118,7 +118,7 @@ def cmd_unfreeze(args: argparse.Namespace) -> int:
 
 def cmd_causes(args: argparse.Namespace) -> int:
     if not args.add and not args.remove:
-        from .core.casefile import Case
+        from workbench.core.case.casefile import Case
         case = Case.open(args.case, readonly=True)
         print(", ".join(printable(c) for c in case.state.causes))
         return 0
@@ -132,7 +132,7 @@ def cmd_causes(args: argparse.Namespace) -> int:
 
 
 def cmd_show(args: argparse.Namespace) -> int:
-    from .core.case_report import case_report_text
+    from workbench.core.case.review import case_report_text
     case = _open(args, readonly=True)
     analysis = case.analyse(case.load_dataset()) if case.data_status.usable else None
     sys.stdout.write(case_report_text(case, analysis))
@@ -140,7 +140,7 @@ def cmd_show(args: argparse.Namespace) -> int:
 
 
 def cmd_verify(args: argparse.Namespace) -> int:
-    from .core.casefile import verify
+    from workbench.core.case.casefile import verify
     result = verify(args.case, recompute=not args.no_recompute)
     for line in result.lines():
         print(printable(line))
@@ -149,7 +149,7 @@ def cmd_verify(args: argparse.Namespace) -> int:
 
 def register(subparsers: Any) -> None:
     """Add the ``case`` and ``verify`` sub-commands to the main parser's subparsers."""
-    from .cli import add_data_options, add_setup_options
+    from workbench.cli import add_data_options, add_setup_options
     case = subparsers.add_parser("case", help="create a case file and record actions in its trail")
     sub = case.add_subparsers(dest="case_command", metavar="ACTION", required=True)
 

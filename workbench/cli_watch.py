@@ -16,7 +16,7 @@ import sys
 import threading
 from typing import Any
 
-from .core.model import WorkbenchError
+from workbench.core.model import WorkbenchError
 
 
 def _seconds(text: str) -> float:
@@ -51,7 +51,7 @@ class Printer:
 
     def note(self, text: str, obj: dict[str, Any] | None = None) -> None:
         """A message about the watch on stderr (and, in JSON mode with ``obj``, a JSON line on stdout)."""
-        from .core.case import printable
+        from workbench.core.case.events import printable
         print(f"workbench: {printable(text)}", file=self.err, flush=True)
         self.status(obj)
 
@@ -62,8 +62,8 @@ class Printer:
 
     def judgement(self, j: Any) -> int:
         """Print a look's lines; returns the number of signals printed."""
-        from .core.case import printable, utc_now
-        from .core.report import fmt
+        from workbench.core.case.events import printable, utc_now
+        from workbench.core.report import fmt
         a, now, ds = j.analysis, utc_now(), j.analysis.dataset
         label = lambda i: printable(str(ds.labels[i]))  # noqa: E731
         stamp = lambda i: None if ds.times is None else str(ds.times[i])[:19].replace("T", " ")  # noqa: E731
@@ -88,8 +88,8 @@ class Printer:
         return len(j.signals)
 
     def _signal(self, j: Any, s: Any, now: str, label, stamp) -> None:
-        from .core.case import printable
-        from .core.streams import breakdown
+        from workbench.core.case.events import printable
+        from workbench.core.streams import breakdown
         a, p = j.analysis, s.last
         b = breakdown(a, p)
         c = a.chart_named(s.chart)
@@ -107,8 +107,8 @@ class Printer:
 def cmd_watch(args: argparse.Namespace) -> int:
     if not (args.headless or args.once):
         return _open_workbench(args)
-    from .core.casefile import Case
-    from .core.phase2 import Watch
+    from workbench.core.case.casefile import Case
+    from workbench.core.phase2.judge import Watch
     printer = Printer(args.format, args.each, not args.no_bell)
     try:
         case = Case.open(args.case, readonly=False, author=args.author)
@@ -175,16 +175,16 @@ def _follow(watch: Any, printer: Printer, interval: float) -> int:
 
 def _open_workbench(args: argparse.Namespace) -> int:
     """``workbench watch CASE``: the workbench with watching switched on (checked for a freeze first)."""
-    from .core.casefile import Case
-    from .core.phase2 import not_frozen_message
+    from workbench.core.case.casefile import Case
+    from workbench.core.phase2.judge import not_frozen_message
     with Case.open(args.case, readonly=True) as case:
         if case.state.frozen is None:
             raise WorkbenchError(not_frozen_message(args.case))
     try:
-        from .tui.app import run_app
+        from workbench.tui.app import run_app
     except ImportError:
         raise WorkbenchError("the workbench screen is not available here; use --headless or --once") from None
-    from .cli import build_parser
+    from workbench.cli import build_parser
     targs = build_parser().parse_args(["open", args.case] + (["--author", args.author] if args.author else []))
     targs.watch, targs.watch_interval, targs.bell = True, args.interval, not args.no_bell
     return run_app(targs)

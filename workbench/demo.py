@@ -3,7 +3,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from .core.model import Settings, Spec
+from workbench.core.model import Settings, Spec
 
 DEMO_DIR = Path(__file__).resolve().parent.parent / "demo_data"
 """The demo folder of the source tree (the project is installed in editable mode)."""
@@ -19,7 +19,7 @@ DEMO_SPECS: dict[str, Spec] = {
 
 def demo_path() -> Path:
     if not DEMO_FILE.is_file():
-        from .core.model import WorkbenchError
+        from workbench.core.model import WorkbenchError
         raise WorkbenchError(f"the bundled demo is missing ({DEMO_FILE}); install the project from its source "
                              "folder with 'pip install -e .' or run 'python demo_data/generate.py'")
     return DEMO_FILE

@@ -8,7 +8,7 @@ import sys
 import pytest
 
 from workbench.cli import main
-from workbench.core.casefile import Case
+from workbench.core.case.casefile import Case
 
 # Montgomery & Runger individuals example data [printed]; subgroup 2 holds the low reading 94.8
 READINGS = [102.0, 94.8, 98.3, 98.4, 102.0, 98.5, 99.0, 97.7, 100.0, 98.1, 101.3, 98.7, 101.1, 98.4, 97.0, 96.7,

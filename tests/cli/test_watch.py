@@ -20,7 +20,7 @@ import numpy as np
 import pytest
 
 from workbench.cli import main
-from workbench.core.casefile import Case
+from workbench.core.case.casefile import Case
 
 TIMEOUT = 60.0
 """Only a failing test waits this long; a passing one returns as soon as the lines are there."""

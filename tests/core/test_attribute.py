@@ -8,7 +8,7 @@ from hypothesis import strategies as st
 from scipy import stats
 from scipy.optimize import brentq
 
-from workbench.core.attribute import RUN_RULES_NOTE, attribute_chart, rules_warning
+from workbench.core.charts.attribute import RUN_RULES_NOTE, attribute_chart, rules_warning
 from workbench.core.model import WorkbenchError
 
 # NIST/SEMATECH e-Handbook of Statistical Methods, p chart example (section 6.3.3.2): 30 wafers of 50

@@ -5,8 +5,8 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from workbench.core.capability import assess, validate_spec
-from workbench.core.capability_formulas import bissell_interval, cp_chi2_interval
+from workbench.core.capability.assess import assess, validate_spec
+from workbench.core.capability.formulas import bissell_interval, cp_chi2_interval
 from workbench.core.model import Spec, WorkbenchError
 
 

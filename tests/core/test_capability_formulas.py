@@ -9,7 +9,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy import stats
 
-from workbench.core.capability_formulas import (bissell_interval, boyles_cpm_interval, centring_k,
+from workbench.core.capability.formulas import (bissell_interval, boyles_cpm_interval, centring_k,
                                                 cp_chi2_interval, cpm_index, normal_fallout,
                                                 normal_indices, observed_fallout, percentile_indices,
                                                 ppm_from_index)

@@ -4,8 +4,8 @@ from pathlib import Path
 import numpy as np
 
 from workbench.core.analysis import analyse
-from workbench.core.capability import assess
-from workbench.core.data import load
+from workbench.core.capability.assess import assess
+from workbench.core.data.reader import load
 from workbench.core.model import Exclusion, Settings, Spec
 
 DEMO = Path(__file__).resolve().parents[2] / "demo_data" / "filler_line3.csv"

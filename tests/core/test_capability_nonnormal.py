@@ -5,10 +5,10 @@ import numpy as np
 import pytest
 from scipy import integrate, special, stats
 
-from workbench.core.capability import assess, density_curve
-from workbench.core.capability_formulas import normal_indices, percentile_indices
+from workbench.core.capability.assess import assess, density_curve
+from workbench.core.capability.formulas import normal_indices, percentile_indices
 from workbench.core.model import Spec, WorkbenchError
-from workbench.core.nonnormal import (MIN_FIT_READINGS, TAIL, boxcox_lambda, boxcox_llf, fit_models,
+from workbench.core.capability.nonnormal import (MIN_FIT_READINGS, TAIL, boxcox_lambda, boxcox_llf, fit_models,
                                      weibull_mle)
 
 SAMPLES = {

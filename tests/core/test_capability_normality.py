@@ -5,7 +5,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from workbench.core.normality import ad_pvalue, ad_statistic, normality
+from workbench.core.capability.normality import ad_pvalue, ad_statistic, normality
 
 
 @pytest.mark.parametrize("seed, maker", [

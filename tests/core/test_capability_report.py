@@ -7,9 +7,9 @@ import re
 import numpy as np
 import pytest
 
-from workbench.core.capability import assess
-from workbench.core.capability_histogram import EXCLUDED, FULL, LIMIT, OUTSIDE, TARGET
-from workbench.core.capability_report import (capability_json, capability_markdown, capability_text,
+from workbench.core.capability.assess import assess
+from workbench.core.capability.histogram import EXCLUDED, FULL, LIMIT, OUTSIDE, TARGET
+from workbench.core.capability.report import (capability_json, capability_markdown, capability_text,
                                               text_histogram)
 from workbench.core.model import Spec
 

@@ -4,7 +4,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from workbench.core.capability_formulas import bissell_interval, boyles_cpm_interval, cp_chi2_interval
+from workbench.core.capability.formulas import bissell_interval, boyles_cpm_interval, cp_chi2_interval
 
 REPS, N = 2000, 50
 LSL, USL, MU, SIGMA, TARGET = 0.0, 12.0, 7.0, 1.25, 6.0

@@ -10,7 +10,7 @@ import time
 
 import pytest
 
-from workbench.core.casefile import Case, lock_path, parse, backup_path, verify
+from workbench.core.case.casefile import Case, lock_path, parse, backup_path, verify
 from workbench.core.model import LayoutRequest, Settings
 
 pytestmark = pytest.mark.skipif(not hasattr(signal, "SIGKILL"), reason="needs POSIX signals")
@@ -18,7 +18,7 @@ pytestmark = pytest.mark.skipif(not hasattr(signal, "SIGKILL"), reason="needs PO
 # The driver appends actions forever and prints "ack N" after each append has returned.
 DRIVER = r"""
 import sys
-from workbench.core.casefile import Case
+from workbench.core.case.casefile import Case
 from workbench.core.model import Exclusion
 case = Case.open(sys.argv[1], author="driver")
 if case.readonly:
@@ -82,7 +82,7 @@ def test_kill_9_at_random_moments_loses_no_acknowledged_action(tmp_path):
 
 HOLDER = r"""
 import sys
-from workbench.core.casefile import Case
+from workbench.core.case.casefile import Case
 case = Case.open(sys.argv[1], author="holder-in-lab")
 print("readonly" if case.readonly else "holding", flush=True)
 sys.stdin.readline()

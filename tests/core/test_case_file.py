@@ -9,8 +9,8 @@ import pytest
 from hypothesis import HealthCheck, given, settings as hsettings, strategies as st
 
 from workbench.core.analysis import analyse, limits_snapshot
-from workbench.core.casefile import Case, backup_path, lock_path, parse, verify
-from workbench.core.case_verify import snapshot_difference
+from workbench.core.case.casefile import Case, backup_path, lock_path, parse, verify
+from workbench.core.case.integrity import snapshot_difference
 from workbench.core.model import Exclusion, LayoutRequest, Settings, Spec, WorkbenchError
 
 # Montgomery & Runger, Applied Statistics and Probability for Engineers (3rd ed.), individuals chart
@@ -214,7 +214,7 @@ def test_a_newer_format_version_is_refused(case_path):
 
 
 def valid_doc() -> dict:
-    from workbench.core.casefile import canonical_json, sha256, seal
+    from workbench.core.case.casefile import canonical_json, sha256, seal
     data = {"path": "d.csv", "sha256": "a" * 64, "rows": 3, "size_bytes": 10,
             "layout": {"kind": "individuals", "value": "x", "detected": True}, "request": {}}
     ev = seal({"seq": 1, "time": "2024-01-01T00:00:00.000Z", "author": "a", "kind": "created",

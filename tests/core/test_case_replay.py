@@ -6,9 +6,9 @@ import hashlib
 import pytest
 from hypothesis import given, settings as hsettings, strategies as st
 
-from workbench.core import case as C
-from workbench.core.case_format import canonical_json, event_hash, parse, render, seal, sha256
-from workbench.core.case_verify import limits_gaps, snapshot_difference
+from workbench.core.case import events as C
+from workbench.core.case.format import canonical_json, event_hash, parse, render, seal, sha256
+from workbench.core.case.integrity import limits_gaps, snapshot_difference
 from workbench.core.model import Exclusion, FrozenLimits, Settings, WorkbenchError
 
 LABELS = [str(i) for i in range(1, 9)]

@@ -5,8 +5,8 @@ import json
 
 import pytest
 
-from workbench.core import case_report as R
-from workbench.core.casefile import Case, verify
+from workbench.core.case import review as R
+from workbench.core.case.casefile import Case, verify
 from workbench.core.model import Exclusion, LayoutRequest, Settings
 
 # Montgomery & Runger individuals example data [printed]; subgroup 2 holds the low reading 94.8

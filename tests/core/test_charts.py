@@ -3,7 +3,7 @@ import numpy as np
 import pytest
 
 from tests.conftest import make_dataset, make_summary
-from workbench.core import constants as K
+from workbench.core.charts import constants as K
 from workbench.core.analysis import analyse
 from workbench.core.model import Exclusion, Settings, WorkbenchError
 

@@ -3,7 +3,7 @@ import math
 
 import pytest
 
-from workbench.core import constants as K
+from workbench.core.charts import constants as K
 
 # Montgomery, Introduction to Statistical Quality Control, Appendix VI [printed, 3-4 dp]
 # (same figures in Pyzdek, The Handbook for Quality Management, appendix).

@@ -1,4 +1,4 @@
-"""Tests of the data loader (workbench.core.data) and of the demo data sets.
+"""Tests of the data loader (workbench.core.data.reader) and of the demo data sets.
 
 References used below:
 * hashlib (Python standard library, FIPS 180-4 SHA-256) is the reference for the file hash.
@@ -24,7 +24,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from workbench.core.data import describe_layout, load
+from workbench.core.data.reader import describe_layout, load
 from workbench.core.model import LayoutRequest
 
 DEMO = Path(__file__).resolve().parents[2] / "demo_data"

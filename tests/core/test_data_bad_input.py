@@ -13,7 +13,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from workbench.core.data import load
+from workbench.core.data.reader import load
 from workbench.core.model import Dataset, LayoutRequest, WorkbenchError
 
 R = LayoutRequest

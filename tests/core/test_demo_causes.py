@@ -9,7 +9,7 @@ from pathlib import Path
 import pytest
 
 from workbench.core.analysis import analyse
-from workbench.core.data import load
+from workbench.core.data.reader import load
 from workbench.core.model import Exclusion, Settings
 from workbench.core.streams import breakdown
 

@@ -20,10 +20,10 @@ from hypothesis import HealthCheck, given, settings as hsettings, strategies as 
 
 from tests.conftest import make_dataset, make_summary
 from workbench.core.analysis import analyse, freeze, limits_snapshot
-from workbench.core.data import load
+from workbench.core.data.reader import load
 from workbench.core.model import Exclusion, LayoutRequest, Settings, WorkbenchError
-from workbench.core.phase2 import Watch, extend, judge_new, last_seen, new_signals
-from workbench.core.tail import TAIL_BYTES, Follower, _head
+from workbench.core.phase2.judge import Watch, extend, judge_new, last_seen, new_signals
+from workbench.core.phase2.follow import TAIL_BYTES, Follower, _head
 
 # Montgomery & Runger, Applied Statistics and Probability for Engineers, Table 16-3 [printed]
 MR_READINGS = [102.0, 94.8, 98.3, 98.4, 102.0, 98.5, 99.0, 97.7, 100.0, 98.1, 101.3, 98.7, 101.1, 98.4, 97.0,
@@ -356,7 +356,7 @@ def test_a_run_continues_across_the_phase2_boundary_and_is_reported_at_its_new_p
 
 
 def test_frozen_limits_stay_the_limits_at_the_freeze_event(tmp_path):
-    from workbench.core.casefile import Case
+    from workbench.core.case.casefile import Case
     path = tmp_path / "w.csv"
     rng = np.random.default_rng(11)
     stamp = lambda i: f"2026-01-01 {i // 60:02d}:{i % 60:02d}"  # noqa: E731
@@ -388,7 +388,7 @@ def test_a_watch_judges_each_subgroup_once_and_remembers_what_it_saw(tmp_path):
     path.write_text("time,A,B,C,remark\n" + "".join(_wide(i, rng) for i in range(25)))
     cp = str(tmp_path / "w.case.json")
     assert main(["case", "new", str(path), "-o", cp]) == 0
-    from workbench.core.casefile import Case
+    from workbench.core.case.casefile import Case
     with Case.open(cp) as case:
         with pytest.raises(WorkbenchError, match="workbench case freeze"):
             Watch.start(case)

@@ -5,9 +5,9 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from workbench.core import rules as R
+from workbench.core.charts import rules as R
 from workbench.core.model import WorkbenchError
-from workbench.core.signals import group_firings
+from workbench.core.charts.signals import group_firings
 
 
 def fires(rule, x, same_side=8, lcl=-3.0, ucl=3.0, excluded=None):

@@ -10,7 +10,7 @@ from hypothesis import strategies as st
 from scipy.stats import norm
 
 from workbench.core.model import WorkbenchError
-from workbench.core.smallshift import EWMA_DESIGNS, _lindley, cusum_chart, ewma_chart, ewma_design
+from workbench.core.charts.smallshift import EWMA_DESIGNS, _lindley, cusum_chart, ewma_chart, ewma_design
 
 # Montgomery & Runger, Applied Statistics and Probability for Engineers (3rd ed.), individuals example
 # readings (Table 16-3) [printed]

@@ -4,7 +4,7 @@ from __future__ import annotations
 import shutil
 from pathlib import Path
 
-from workbench.core.casefile import Case
+from workbench.core.case.casefile import Case
 from workbench.demo import DEMO_DIR
 from workbench.tui.app import WorkbenchApp
 from workbench.tui.session import OpenRequest

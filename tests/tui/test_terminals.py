@@ -6,7 +6,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from workbench.core.casefile import Case
+from workbench.core.case.casefile import Case
 from workbench.core.model import Dataset, Layout, Settings
 from workbench.tui.app import WorkbenchApp
 from workbench.tui.screens.bench import BenchScreen
@@ -136,7 +136,7 @@ async def test_opening_reports_progress(in_tmp):
 
 
 def test_benchmark_reports_both_round_trips():
-    from workbench.tui.benchmark import measure_keypress
+    from workbench.tui.perf_keys import measure_keypress
     result = measure_keypress(subgroups=3000, presses=3)
     assert set(result) >= {"app_ms", "empty_ms", "ratio"}
     assert result["app_ms"] > 0 and result["empty_ms"] > 0

@@ -11,10 +11,10 @@ from typing import Any, Iterable
 
 import numpy as np
 
-from . import charts as C
-from . import rules as R
-from .signals import SignalTable, group_firings
-from .model import (
+from workbench.core.charts import variables as C
+from workbench.core.charts import rules as R
+from workbench.core.charts.signals import SignalTable, group_firings
+from workbench.core.model import (
     ATTRIBUTE_CHARTS, CHART_KINDS, SIGMA_METHOD_LABELS, Analysis, ChartResult, Dataset, Exclusion,
     FrozenLimits, Settings, Signal, WorkbenchError,
 )
@@ -168,7 +168,7 @@ def _overall_sd(stats: C.SubgroupStats, use: np.ndarray, ranges_only: bool = Fal
     """
     sd = stats.sd
     if ranges_only:
-        from .constants import d2, table
+        from workbench.core.charts.constants import d2, table
         sd = stats.range / table(stats.n, d2)
     present = stats.n > 0
     left_out = np.flatnonzero(present & ~use)
@@ -314,7 +314,7 @@ def _size_warnings(chart: str, stats: C.SubgroupStats) -> list[str]:
 
 def _small_shift(chart: str, loc: ChartResult, center: float, settings: Settings, labels: np.ndarray,
                  warnings: list[str]) -> ChartResult:
-    from . import smallshift
+    from workbench.core.charts import smallshift
     sigma_x = loc.sigma
     if chart == "ewma":
         return smallshift.ewma_chart(loc.values, center, sigma_x, loc.excluded, settings.ewma_lambda,
@@ -331,7 +331,7 @@ def _small_shift(chart: str, loc: ChartResult, center: float, settings: Settings
 
 def _analyse_attribute(ds, settings, excl, chart, ex_sub, ex_cells, phase2, warnings, frozen=None) -> Analysis:
     """Count charts.  A freeze fixes the centre rate (and Laney's sigma_z when it was used; 1.0 otherwise)."""
-    from . import attribute
+    from workbench.core.charts import attribute
     if chart in ("p", "np") and ds.count_over_size:
         raise WorkbenchError(f"{ds.count_over_size} (a {chart} chart counts defectives, which cannot outnumber "
                              "the units inspected; for defects use a u chart)")
@@ -464,7 +464,7 @@ def capability_for(analysis: Analysis, states: dict | None = None):
         if n_open == len(analysis.signals):
             cache[n_open] = analysis.capability
         else:
-            from .capability import assess
+            from workbench.core.capability.assess import assess
             analysis.capability  # same input checks (counts, summary data)
             cache[n_open] = assess(analysis.readings(), analysis.sigma_within, analysis.sigma_method, spec,
                                    open_signals=n_open)

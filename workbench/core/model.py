@@ -492,7 +492,7 @@ class Analysis:
     @cached_property
     def comparison(self) -> "StreamComparison | None":
         """Whole-dataset comparison of streams (computed on first use)."""
-        from .streams import compare
+        from workbench.core.streams import compare
         return compare(self)
 
     @cached_property
@@ -510,7 +510,7 @@ class Analysis:
         if self.dataset.values is None:
             raise WorkbenchError("capability needs the individual readings; summary data hold only subgroup "
                                  "statistics (export the readings, or remove --lsl/--usl)")
-        from .capability import assess
+        from workbench.core.capability.assess import assess
         return assess(self.readings(), self.sigma_within, self.sigma_method, spec,
                       open_signals=len(self.signals))
 

@@ -10,8 +10,8 @@ from typing import Any
 
 import numpy as np
 
-from .analysis import sigma_label
-from .model import Analysis, ChartResult, WorkbenchError
+from workbench.core.analysis import sigma_label
+from workbench.core.model import Analysis, ChartResult, WorkbenchError
 
 SCHEMA = "workbench.report/1"
 MAX_TEXT_SIGNALS = 40
@@ -106,10 +106,10 @@ def report_json(a: Analysis, states: dict | None = None, with_values: bool = Fal
             "kruskal_wallis": {"h": cmp_.kruskal_h, "p": cmp_.kruskal_p, "method": "scipy.stats.kruskal"},
             "variance": {"between": cmp_.var_between, "within": cmp_.var_within, "share_between": cmp_.share_between},
             "differ": cmp_.differ, "advice": cmp_.advice}
-    from .analysis import capability_for
+    from workbench.core.analysis import capability_for
     cap = capability_for(a, states)
     if cap is not None:
-        from .capability_report import capability_json
+        from workbench.core.capability.report import capability_json
         out["capability"] = capability_json(cap)
     return out
 
@@ -134,7 +134,7 @@ def fmt(v: Any, digits: int = 4) -> str:
 
 
 def _limits_lines(a: Analysis) -> list[str]:
-    from .analysis import limits_snapshot
+    from workbench.core.analysis import limits_snapshot
     snap = limits_snapshot(a)["charts"]
     lines = []
     for c in a.charts:
@@ -197,23 +197,23 @@ def report_text(a: Analysis, states: dict | None = None, width: int = 100) -> st
         L.append(f"          ANOVA F {fmt(cmp_.anova_f)} p {fmt(cmp_.anova_p)}; Kruskal–Wallis H "
                  f"{fmt(cmp_.kruskal_h)} p {fmt(cmp_.kruskal_p)}")
         L.append(f"          {_p(cmp_.advice)}")
-    from .analysis import capability_for
+    from workbench.core.analysis import capability_for
     cap = capability_for(a, states)
     if cap is not None:
-        from .capability_report import capability_text
+        from workbench.core.capability.report import capability_text
         L.append("")
         L.append(capability_text(cap, width=width))
     return "\n".join(L) + "\n"
 
 
 def _md_escape(text: str) -> str:
-    from .case_report import md
+    from workbench.core.case.review import md
     return md(text)
 
 
 def _p(text: Any) -> str:
     """Text from the data (path, labels, stream names) made printable for a terminal."""
-    from .case import printable
+    from workbench.core.case.events import printable
     return printable(str(text))
 
 
@@ -233,7 +233,7 @@ def report_markdown(a: Analysis, states: dict | None = None) -> str:
           f"Chart **{a.chart}**, within-subgroup sigma **{fmt(a.sigma_within)}** ({sigma_label(a)}), "
           f"overall SD {fmt(a.sigma_overall)}.", "",
           "| chart | centre | LCL | UCL | rules |", "|---|---|---|---|---|"]
-    from .analysis import limits_snapshot
+    from workbench.core.analysis import limits_snapshot
     snap = limits_snapshot(a)["charts"]
     for c in a.charts:
         s = snap[c.name]
@@ -265,10 +265,10 @@ def report_markdown(a: Analysis, states: dict | None = None) -> str:
             L.append(f"| {esc(s)} | {fmt(m)} | {fmt(sd)} | {n} |")
         L += ["", f"One-way ANOVA F = {fmt(cmp_.anova_f)}, p = {fmt(cmp_.anova_p)}; Kruskal–Wallis H = "
                   f"{fmt(cmp_.kruskal_h)}, p = {fmt(cmp_.kruskal_p)}.", "", esc(cmp_.advice)]
-    from .analysis import capability_for
+    from workbench.core.analysis import capability_for
     cap = capability_for(a, states)
     if cap is not None:
-        from .capability_report import capability_markdown
+        from workbench.core.capability.report import capability_markdown
         L += ["", capability_markdown(cap)]
     return "\n".join(L) + "\n"
 

@@ -20,9 +20,9 @@ Kruskal, W. H. & Wallis, W. A. (1952). Use of ranks in one-criterion variance an
 from __future__ import annotations
 
 import numpy as np
-from .tails import chi2_sf, f_sf
+from workbench.core.tails import chi2_sf, f_sf
 
-from .model import Analysis, Breakdown, StreamComparison, StreamRow
+from workbench.core.model import Analysis, Breakdown, StreamComparison, StreamRow
 
 ALPHA = 0.05
 """Significance level for "the streams differ"."""

@@ -12,17 +12,17 @@ from textual.binding import Binding
 
 from workbench.core.model import WorkbenchError
 
-from .commands import WorkbenchCommands
-from .dialogs.choice import ChoiceDialog
-from .dialogs.mapping import MappingDialog
-from .flows import Flows
-from .messages import (ActionDone, ActionFailed, OpenFailed, OpenNeedsChoice, OpenNeedsMapping, OpenProgress,
+from workbench.tui.commands import WorkbenchCommands
+from workbench.tui.dialogs.choice import ChoiceDialog
+from workbench.tui.dialogs.mapping import MappingDialog
+from workbench.tui.flows import Flows
+from workbench.tui.messages import (ActionDone, ActionFailed, OpenFailed, OpenNeedsChoice, OpenNeedsMapping, OpenProgress,
                        SessionReady)
-from .watching import Watching
-from .screens.bench import BenchScreen
-from .screens.loading import LoadingScreen
-from .session import CaseExists, NeedMapping, OpenRequest, Session, Snapshot, open_session
-from .view import safe
+from workbench.tui.watching import Watching
+from workbench.tui.screens.bench import BenchScreen
+from workbench.tui.screens.loading import LoadingScreen
+from workbench.tui.session import CaseExists, NeedMapping, OpenRequest, Session, Snapshot, open_session
+from workbench.tui.view import safe
 
 
 class WorkbenchApp(Watching, Flows, App[int]):
@@ -168,7 +168,7 @@ class WorkbenchApp(Watching, Flows, App[int]):
     # -- app-wide actions -----------------------------------------------------------------------
 
     def action_help(self) -> None:
-        from .screens.help import HelpScreen
+        from workbench.tui.screens.help import HelpScreen
         if not isinstance(self.screen, HelpScreen):
             self.push_screen(HelpScreen())
 

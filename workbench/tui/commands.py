@@ -12,7 +12,7 @@ class WorkbenchCommands(Provider):
     """Commands from the bindings of the screen the palette was opened over, and of the app."""
 
     def _commands(self) -> Iterator[tuple[str, str, object]]:
-        from .screens.help import key_text
+        from workbench.tui.screens.help import key_text
         screen = self.screen
         seen = set()
         for target, bindings in ((screen, screen.BINDINGS), (self.app, self.app.BINDINGS)):

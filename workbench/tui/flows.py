@@ -12,13 +12,13 @@ from textual import work
 
 from workbench.core.model import Exclusion, Settings
 
-from .dialogs.choice import ChoiceDialog
-from .dialogs.exclude import ExcludeChoice, ExcludeDialog
-from .dialogs.reason import ReasonDialog
-from .dialogs.setup import SetupDialog, SetupResult
-from .messages import ActionDone, ActionFailed, WatchStopped
-from .session import Change, Session
-from .view import STATE_WORDS, safe
+from workbench.tui.dialogs.choice import ChoiceDialog
+from workbench.tui.dialogs.exclude import ExcludeChoice, ExcludeDialog
+from workbench.tui.dialogs.reason import ReasonDialog
+from workbench.tui.dialogs.setup import SetupDialog, SetupResult
+from workbench.tui.messages import ActionDone, ActionFailed, WatchStopped
+from workbench.tui.session import Change, Session
+from workbench.tui.view import STATE_WORDS, safe
 
 
 class Flows:
@@ -36,7 +36,7 @@ class Flows:
 
     @work(thread=True, group="write")
     def _act(self, fn: Callable[[Session], Change]) -> None:
-        from . import follow
+        from workbench.tui import follow
         session = self.session
         with session.lock:
             try:

@@ -1,6 +1,6 @@
 """Following a case's data file from the workbench (Phase II): plain Python, run in worker threads.
 
-The :class:`~workbench.core.phase2.Watch` shares the session's case.  Every look (and every
+The :class:`~workbench.core.phase2.judge.Watch` shares the session's case.  Every look (and every
 action of the user) holds ``session.lock``, so a poll never runs while an action writes the
 trail, and the session's dataset and analysis always are the watch's.
 """
@@ -10,8 +10,8 @@ from dataclasses import dataclass
 
 from workbench.core.model import WorkbenchError
 
-from .session import Session, Snapshot
-from .view import safe
+from workbench.tui.session import Session, Snapshot
+from workbench.tui.view import safe
 
 MOST_NOTICES = 3
 """New signals of one look that get a notification each; the rest are counted in one more."""
@@ -35,7 +35,7 @@ class Look:
 
 def start(session: Session) -> Look:
     """Begin following the case's data file (the limits must be frozen) and judge what is new."""
-    from workbench.core.phase2 import Watch
+    from workbench.core.phase2.judge import Watch
     with session.lock:
         if session.watch is not None:
             raise WorkbenchError(f"already following {session.watch.follower.path}")

@@ -17,8 +17,8 @@ from textual_plotext.plot import Plot
 
 import plotext._utility as _plotext_utility
 
-from .view import EXCLUDED, NORMAL, OPEN, REVIEWED, safe
-from .window import Trace, Window, column_of, first_position, limit_trace, trace
+from workbench.tui.view import EXCLUDED, NORMAL, OPEN, REVIEWED, safe
+from workbench.tui.window import Trace, Window, column_of, first_position, limit_trace, trace
 
 def _no_duplicates(data):
     """Order-preserving de-duplication: plotext's own uses a set, whose order follows the per-process

@@ -3,7 +3,7 @@
 Everything here is plain Python (no Textual) and runs in worker threads: opening or creating a
 case, loading its data, analysing, and every action that appends to the trail.  Each call
 returns a new immutable :class:`Snapshot`; the app's message handlers own the snapshot they
-were given and never touch the :class:`~workbench.core.casefile.Case` themselves.
+were given and never touch the :class:`~workbench.core.case.casefile.Case` themselves.
 """
 from __future__ import annotations
 
@@ -13,10 +13,10 @@ from pathlib import Path
 from typing import Callable
 
 from workbench.core.analysis import analyse, limits_snapshot
-from workbench.core.casefile import SUFFIX, Case, default_case_path
+from workbench.core.case.casefile import SUFFIX, Case, default_case_path
 from workbench.core.model import Analysis, Dataset, Exclusion, LayoutRequest, Settings, WorkbenchError
 
-from .view import Marks, limits_change, marks_for
+from workbench.tui.view import Marks, limits_change, marks_for
 
 Progress = Callable[[str, float], None]
 """progress(what, fraction 0..1) — called from the worker thread."""
@@ -131,7 +131,7 @@ def case_summary(path: Path) -> str:
 
 def read_columns(path: Path) -> tuple[tuple[str, ...], dict[str, str]]:
     """The column names of a data file and a few sample cells of each (for the mapping dialog)."""
-    from workbench.core import sniff
+    from workbench.core.data import sniff
     table = sniff.read_table(path)
     cols = tuple(str(c) for c in table.frame.columns)
     samples = {c: ", ".join(str(v) for v in table.frame[c].head(3).tolist()) for c in cols}
@@ -139,7 +139,7 @@ def read_columns(path: Path) -> tuple[tuple[str, ...], dict[str, str]]:
 
 
 def _load(path: Path, request: LayoutRequest, mapped: bool = False) -> Dataset:
-    from workbench.core.data import load
+    from workbench.core.data.reader import load
     try:
         return load(str(path), request)
     except WorkbenchError as exc:
@@ -224,7 +224,7 @@ class Session:
         return self._limits_change(before, f"Restored {target.key}")
 
     def change_settings(self, settings: Settings) -> Change:
-        from workbench.core.case import settings_changes
+        from workbench.core.case.events import settings_changes
         before, old = self.analysis, self.case.state.settings
         self.analysis = self.case.record_settings(self.dataset, settings)
         return self._limits_change(before, "Setup changed", tuple(settings_changes(old, settings)))
@@ -258,5 +258,5 @@ class Session:
         return self.snapshot()
 
     def verify(self):
-        from workbench.core.casefile import verify
+        from workbench.core.case.casefile import verify
         return verify(self.case.path)

@@ -11,7 +11,7 @@ from typing import Any
 
 import numpy as np
 
-from workbench.core.case import printable
+from workbench.core.case.events import printable
 from workbench.core.model import Analysis, Signal
 from workbench.core.report import fmt
 
@@ -136,7 +136,7 @@ def marks_for(a: Analysis, state: Any) -> Marks:
     current = len(rows)
     live = {r.key for r in rows}
     if state is not None:
-        from workbench.core.rules import resolve
+        from workbench.core.charts.rules import resolve
         words = {rid: resolve("nelson").rule(rid).words for rid in resolve("nelson").ids}
         for info in state.exclusion_info.values():
             key = info.signal

@@ -11,9 +11,9 @@ from pathlib import Path
 
 from textual import work
 
-from . import follow
-from .messages import WatchLooked, WatchStopped
-from .view import safe
+from workbench.tui import follow
+from workbench.tui.messages import WatchLooked, WatchStopped
+from workbench.tui.view import safe
 
 
 class Watching:

@@ -11,7 +11,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .view import EXCLUDED, NORMAL, OPEN, REVIEWED
+from workbench.tui.view import EXCLUDED, NORMAL, OPEN, REVIEWED
 
 
 @dataclass(frozen=True)

@@ -13,7 +13,7 @@ from textual.widgets import Button, Input, Label, RadioButton, RadioSet, Select,
 
 from workbench.core.model import Exclusion
 
-from ..view import safe
+from workbench.tui.view import safe
 
 
 @dataclass(frozen=True)

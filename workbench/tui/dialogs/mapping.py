@@ -11,7 +11,7 @@ from textual.widgets import Button, Label, Select, SelectionList, Static
 
 from workbench.core.model import LayoutRequest
 
-from ..view import safe
+from workbench.tui.view import safe
 
 KINDS = (("detect", None), ("long: one reading a row, a stream column", "long"),
          ("wide: one subgroup a row, one column per stream", "wide"),

@@ -11,7 +11,7 @@ from textual.containers import Grid, Horizontal, Vertical, VerticalScroll
 from textual.screen import ModalScreen
 from textual.widgets import Button, Input, Label, Select, Static
 
-from workbench.core import rules as R
+from workbench.core.charts import rules as R
 from workbench.core.model import CHART_KINDS, SIGMA_METHODS, Settings, Spec, WorkbenchError
 
 RULE_SETS = ("western-electric", "nelson", "limits-only")
@@ -128,7 +128,7 @@ class SetupDialog(ModalScreen[SetupResult | None]):
                            required=_num(val("required"), "required index") or base.required,
                            confidence=_num(val("confidence"), "confidence") or base.confidence,
                            method=str(self.query_one("#method", Select).value))
-            from workbench.core.capability import validate_spec
+            from workbench.core.capability.assess import validate_spec
             validate_spec(spec)
         elif val("target").strip():
             raise WorkbenchError("a target needs a specification: give LSL and/or USL")

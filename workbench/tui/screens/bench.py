@@ -12,15 +12,15 @@ from textual.containers import Horizontal, Vertical
 from textual.screen import Screen
 from textual.widgets import Static
 
-from ..plotting import legend_text
-from ..session import Snapshot
-from ..widgets.control_chart import ControlChart
-from ..widgets.keybar import KeyBar
-from ..widgets.lines import LinesPanel
-from ..widgets.panels import SubgroupPanel, status_lines
-from ..widgets.signal_list import SignalList
-from ..window import Window, follow, window_at
-from .bench_charts import MIN_WINDOW, BenchCharts
+from workbench.tui.plotting import legend_text
+from workbench.tui.session import Snapshot
+from workbench.tui.widgets.control_chart import ControlChart
+from workbench.tui.widgets.keybar import KeyBar
+from workbench.tui.widgets.lines import LinesPanel
+from workbench.tui.widgets.panels import SubgroupPanel, status_lines
+from workbench.tui.widgets.signal_list import SignalList
+from workbench.tui.window import Window, follow, window_at
+from workbench.tui.screens.bench_charts import MIN_WINDOW, BenchCharts
 
 WRITES = {"exclude", "restore", "note", "explain", "no_cause", "reopen", "freeze", "setup"}
 
@@ -258,7 +258,7 @@ class BenchScreen(BenchCharts, Screen):
         self._update_cursor_views()
 
     def action_breakdown(self) -> None:
-        from .breakdown import BreakdownScreen
+        from workbench.tui.screens.breakdown import BreakdownScreen
         self.app.push_screen(BreakdownScreen(self.cursor))
 
     def action_exclude(self) -> None:
@@ -293,11 +293,11 @@ class BenchScreen(BenchCharts, Screen):
         self.app.setup_flow()
 
     def action_fit(self) -> None:
-        from .fit import FitScreen
+        from workbench.tui.screens.fit import FitScreen
         self.app.push_screen(FitScreen())
 
     def action_trail(self) -> None:
-        from .trail import TrailScreen
+        from workbench.tui.screens.trail import TrailScreen
         self.app.push_screen(TrailScreen())
 
     def action_panels(self) -> None:

@@ -8,11 +8,11 @@ from __future__ import annotations
 from textual import work
 from textual.worker import get_current_worker
 
-from ..messages import ChartsReady
-from ..plotting import build, chart_data, label_width
-from ..session import Snapshot
-from ..widgets.control_chart import ControlChart
-from ..window import Window, follow, window_at
+from workbench.tui.messages import ChartsReady
+from workbench.tui.plotting import build, chart_data, label_width
+from workbench.tui.session import Snapshot
+from workbench.tui.widgets.control_chart import ControlChart
+from workbench.tui.window import Window, follow, window_at
 
 MIN_WINDOW = 8
 """The fewest subgroups a window shows."""

@@ -15,12 +15,12 @@ from textual_plotext import PlotextPlot
 from workbench.core.model import Breakdown
 from workbench.core.report import fmt
 
-from ..messages import Computed
-from ..session import Snapshot
-from ..view import STATE_WORDS, safe
-from ..widgets.comparison import comparison_text
-from ..widgets.neighbourhood import NEIGHBOURS, neighbourhood_text
-from ..widgets.keybar import KeyBar
+from workbench.tui.messages import Computed
+from workbench.tui.session import Snapshot
+from workbench.tui.view import STATE_WORDS, safe
+from workbench.tui.widgets.comparison import comparison_text
+from workbench.tui.widgets.neighbourhood import NEIGHBOURS, neighbourhood_text
+from workbench.tui.widgets.keybar import KeyBar
 
 WRITES = {"exclude", "exclude_reading", "restore"}
 COLUMNS = ("stream", "reading", "− mean", "stream mean", "stream SD", "z (own)", "role", "share of R", "excluded")

@@ -11,10 +11,10 @@ from textual.containers import Horizontal, VerticalScroll
 from textual.screen import Screen
 from textual.widgets import Static
 
-from ..messages import Computed
-from ..session import Snapshot
-from ..widgets.histogram import FitPlot, fit_picture
-from ..widgets.keybar import KeyBar
+from workbench.tui.messages import Computed
+from workbench.tui.session import Snapshot
+from workbench.tui.widgets.histogram import FitPlot, fit_picture
+from workbench.tui.widgets.keybar import KeyBar
 
 METHODS = ("normal", "box-cox", "percentile", "auto")
 CAUTION = ("Capability indices are estimates from a sample, and they are only meaningful for a stable "
@@ -110,7 +110,7 @@ class FitScreen(Screen):
     @work(thread=True, exclusive=True, group="fit")
     def _assess(self, token: int, snap: Snapshot, width: int, height: int, text_width: int) -> None:
         from workbench.core.analysis import capability_for
-        from workbench.core.capability_report import capability_text
+        from workbench.core.capability.report import capability_text
         a = snap.analysis
         try:
             cap = capability_for(a, snap.state.signal_states)

@@ -8,7 +8,7 @@ from textual.containers import Vertical, VerticalScroll
 from textual.screen import ModalScreen
 from textual.widgets import Static
 
-from ..plotting import COLOUR, GLYPH, rgb
+from workbench.tui.plotting import COLOUR, GLYPH, rgb
 
 KEY_NAMES = {"right": "→", "left": "←", "up": "↑", "down": "↓", "enter": "enter", "escape": "esc",
              "plus": "+", "equals_sign": "=", "minus": "-", "less_than_sign": "<", "greater_than_sign": ">",
@@ -21,11 +21,11 @@ def key_text(keys: str) -> str:
 
 def binding_groups() -> list[tuple[str, list[Binding]]]:
     """(screen title, bindings) for every screen of the workbench."""
-    from ..app import WorkbenchApp
-    from .bench import BenchScreen
-    from .breakdown import BreakdownScreen
-    from .fit import FitScreen
-    from .trail import TrailScreen
+    from workbench.tui.app import WorkbenchApp
+    from workbench.tui.screens.bench import BenchScreen
+    from workbench.tui.screens.breakdown import BreakdownScreen
+    from workbench.tui.screens.fit import FitScreen
+    from workbench.tui.screens.trail import TrailScreen
     groups = [("Bench", BenchScreen.BINDINGS), ("Breakdown", BreakdownScreen.BINDINGS), ("Fit", FitScreen.BINDINGS),
               ("Trail", TrailScreen.BINDINGS), ("Everywhere", WorkbenchApp.BINDINGS),
               ("Dialogs", [Binding("escape,q", "cancel", "Cancel the dialog (q outside a text field)", id="dialog-cancel"),

@@ -8,8 +8,8 @@ from textual.containers import Vertical
 from textual.screen import Screen
 from textual.widgets import LoadingIndicator, ProgressBar, Static
 
-from ..view import safe
-from ..widgets.keybar import KeyBar
+from workbench.tui.view import safe
+from workbench.tui.widgets.keybar import KeyBar
 
 
 class LoadingScreen(Screen):

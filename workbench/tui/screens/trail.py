@@ -8,17 +8,17 @@ from textual.binding import Binding
 from textual.screen import Screen
 from textual.widgets import DataTable, Static
 
-from workbench.core.case import describe
+from workbench.core.case.events import describe
 
-from ..messages import Computed
-from ..session import Snapshot
-from ..view import limits_change, limits_line, safe
-from ..widgets.keybar import KeyBar
+from workbench.tui.messages import Computed
+from workbench.tui.session import Snapshot
+from workbench.tui.view import limits_change, limits_line, safe
+from workbench.tui.widgets.keybar import KeyBar
 
 
 def setup_changes(events) -> dict[int, list[str]]:
     """Event number -> ``name: old -> new`` for each settings event (against the setup before it)."""
-    from workbench.core.case import settings_changes
+    from workbench.core.case.events import settings_changes
     from workbench.core.model import Settings
     out, current = {}, None
     for ev in events:

@@ -6,7 +6,7 @@ from rich.text import Text
 from workbench.core.model import Analysis
 from workbench.core.report import fmt
 
-from ..view import safe
+from workbench.tui.view import safe
 
 
 def comparison_text(a: Analysis) -> Text:

@@ -24,8 +24,8 @@ from textual.message import Message
 from textual.strip import Strip
 from textual_plotext import PlotextPlot
 
-from ..plotting import Picture
-from ..window import column_of, position_of
+from workbench.tui.plotting import Picture
+from workbench.tui.window import column_of, position_of
 
 CURSOR = Style(reverse=True)
 

@@ -6,7 +6,7 @@ from rich.text import Text
 from textual_plotext import PlotextPlot
 from textual_plotext.plot import Plot
 
-from ..plotting import CENTRE, LIMIT, LINE, short
+from workbench.tui.plotting import CENTRE, LIMIT, LINE, short
 
 SPEC = (255, 85, 60)
 
@@ -28,7 +28,7 @@ class FitPlot(PlotextPlot):
 
 def fit_picture(cap, readings: np.ndarray, width: int, height: int) -> Text:
     """Histogram of ``readings`` with the specification lines and ``density_curve(cap, x)`` scaled to counts."""
-    from workbench.core.capability import density_curve
+    from workbench.core.capability.assess import density_curve
     x = np.asarray(readings, float)
     x = x[np.isfinite(x)]
     width, height = max(int(width), 30), max(int(height), 8)

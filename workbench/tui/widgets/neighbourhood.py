@@ -7,8 +7,8 @@ from textual_plotext.plot import Plot
 
 from workbench.core.model import Dataset
 
-from ..plotting import PHASE, short, tick_layout
-from ..view import safe
+from workbench.tui.plotting import PHASE, short, tick_layout
+from workbench.tui.view import safe
 
 NEIGHBOURS = 10
 """Subgroups drawn on each side of the selected one."""

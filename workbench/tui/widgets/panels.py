@@ -7,10 +7,10 @@ from rich.style import Style
 from workbench.core.analysis import sigma_label
 from workbench.core.report import fmt
 
-from ..plotting import COLOUR, GLYPH, short
-from ..session import Snapshot
-from ..view import NORMAL, OPEN, STATE_WORDS, safe
-from .lines import BOLD, BOLD_REVERSE, DIM, ITALIC, UNDERLINE_DIM, Lines, LinesPanel
+from workbench.tui.plotting import COLOUR, GLYPH, short
+from workbench.tui.session import Snapshot
+from workbench.tui.view import NORMAL, OPEN, STATE_WORDS, safe
+from workbench.tui.widgets.lines import BOLD, BOLD_REVERSE, DIM, ITALIC, UNDERLINE_DIM, Lines, LinesPanel
 
 MAX_GLYPH, MIN_GLYPH = "▴", "▾"
 GLYPH_STYLE = {cls: Style(bold=True, color="rgb({},{},{})".format(*c)) for cls, c in COLOUR.items()}

@@ -11,8 +11,8 @@ from textual.message import Message
 from textual.scroll_view import ScrollView
 from textual.strip import Strip
 
-from ..plotting import COLOUR, GLYPH
-from ..view import EXCLUDED, OPEN, REVIEWED, STATE_WORDS, SignalRow
+from workbench.tui.plotting import COLOUR, GLYPH
+from workbench.tui.view import EXCLUDED, OPEN, REVIEWED, STATE_WORDS, SignalRow
 
 BOLD, DIM, REVERSE = Style(bold=True), Style(dim=True), Style(reverse=True)
 GLYPH_STYLE = {cls: Style(bold=True, color="rgb({},{},{})".format(*c)) for cls, c in COLOUR.items()}

@@ -70,10 +70,10 @@ def _line(name: str, value: float, goal: float, unit: str = "×") -> bool:
 def run_bench(subgroups: int = 200_000, streams: int = 5, quick: bool = False) -> int:
     import pandas as pd
 
-    from .core.analysis import analyse
-    from .core.data import load
-    from .core.model import Exclusion, Settings
-    from .core import rules as R
+    from workbench.core.analysis import analyse
+    from workbench.core.data.reader import load
+    from workbench.core.model import Exclusion, Settings
+    from workbench.core.charts import rules as R
 
     results: list[bool] = []
     with tempfile.TemporaryDirectory(prefix="workbench-bench-") as tmp:
@@ -119,7 +119,7 @@ def run_bench(subgroups: int = 200_000, streams: int = 5, quick: bool = False) -
 
         # 4. Phase II: judging one appended subgroup against a full load of the file
         try:
-            from .core.phase2 import bench_append
+            from workbench.core.phase2.judge import bench_append
         except ImportError:
             bench_append = None
         if bench_append is not None:
@@ -129,7 +129,7 @@ def run_bench(subgroups: int = 200_000, streams: int = 5, quick: bool = False) -
         # 5. the workbench's keypress round trip against an empty Textual app
         if not quick:
             try:
-                from .tui.benchmark import measure_keypress
+                from workbench.tui.perf_keys import measure_keypress
             except ImportError:
                 measure_keypress = None
             if measure_keypress is not None:

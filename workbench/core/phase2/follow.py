@@ -20,7 +20,7 @@ own header, delimiter, decimal mark and encoding, checks them with the loader's 
   (:meth:`Follower.verify_prefix`); the SHA-256 of what was read is kept up to date
   incrementally.
 
-Parsing and merging the appended rows is in :mod:`workbench.core.tail_rows`.
+Parsing and merging the appended rows is in :mod:`workbench.core.phase2.rows`.
 """
 from __future__ import annotations
 
@@ -33,10 +33,10 @@ from pathlib import Path
 
 import numpy as np
 
-from . import data as D
-from . import sniff
-from .model import Dataset, LayoutRequest, WorkbenchError
-from .tail_rows import (  # re-exported: grow and _head used to live here
+from workbench.core.data import reader as D
+from workbench.core.data import sniff
+from workbench.core.model import Dataset, LayoutRequest, WorkbenchError
+from workbench.core.phase2.rows import (  # re-exported: grow and _head used to live here
     _complete, _Format, _head, _Open, _RowReader, grow,
 )
 

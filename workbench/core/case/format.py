@@ -28,8 +28,8 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from .case import FORMAT, VERSION, CaseState, Event, replay
-from .model import LAYOUTS, Layout, LayoutRequest, WorkbenchError
+from workbench.core.case.events import FORMAT, VERSION, CaseState, Event, replay
+from workbench.core.model import LAYOUTS, Layout, LayoutRequest, WorkbenchError
 
 SUFFIX = ".case.json"
 

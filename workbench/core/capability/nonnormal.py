@@ -13,7 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import optimize, special, stats
 
-from .model import WorkbenchError
+from workbench.core.model import WorkbenchError
 
 MIN_FIT_READINGS = 10
 """Fewest readings for which a Box-Cox lambda or a distribution is fitted."""

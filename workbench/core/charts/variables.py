@@ -24,8 +24,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from . import constants as K
-from .model import ChartResult, WorkbenchError
+from workbench.core.charts import constants as K
+from workbench.core.model import ChartResult, WorkbenchError
 
 
 @dataclass(frozen=True, eq=False)

@@ -3,7 +3,7 @@
 Reading stored payload pieces (settings, frozen limits, exclusions, causes), each value
 type-checked with an error that names the event; and the small helpers for people and
 views: the current UTC time, the default author, text made printable, and each event of a
-trail described in plain words.  The events and their replay are in :mod:`workbench.core.case`.
+trail described in plain words.  The events and their replay are in :mod:`workbench.core.case.events`.
 """
 from __future__ import annotations
 
@@ -16,10 +16,10 @@ from dataclasses import fields
 from datetime import datetime, timezone
 from typing import TYPE_CHECKING, Any, Iterable, Mapping
 
-from .model import CHART_KINDS, SIGMA_METHODS, Exclusion, FrozenLimits, Settings, Spec, WorkbenchError
+from workbench.core.model import CHART_KINDS, SIGMA_METHODS, Exclusion, FrozenLimits, Settings, Spec, WorkbenchError
 
 if TYPE_CHECKING:
-    from .case import Event
+    from workbench.core.case.events import Event
 
 # ---- payload pieces -------------------------------------------------------------------------
 

@@ -5,7 +5,7 @@ delimiter, decimal mark and encoding and numbers them as lines of the file; the 
 the merge use the loader's rules, so that errors name ``file:row:column``.  Rows of a wide,
 individuals or summary file are subgroups of their own; rows of a long file are merged into
 subgroups, the last of which may stay open until every stream has its reading (see
-:mod:`workbench.core.tail`).  Arrays grow in place where they can (:func:`grow`).
+:mod:`workbench.core.phase2.follow`).  Arrays grow in place where they can (:func:`grow`).
 """
 from __future__ import annotations
 
@@ -20,9 +20,9 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from . import data as D
-from . import sniff
-from .model import Dataset, WorkbenchError
+from workbench.core.data import reader as D
+from workbench.core.data import sniff
+from workbench.core.model import Dataset, WorkbenchError
 
 @dataclass
 class _Open:
@@ -99,7 +99,7 @@ grow = _Growth().append
 
 
 class _RowReader:
-    """The reading and merging half of :class:`~workbench.core.tail.Follower`.
+    """The reading and merging half of :class:`~workbench.core.phase2.follow.Follower`.
 
     Uses the follower's ``path``, ``dataset``, ``_fmt``, ``_req``, ``_index``, ``_open``,
     ``_last_time`` and ``_rows_read``.

@@ -12,12 +12,12 @@ from dataclasses import dataclass, field
 from datetime import datetime
 from typing import Any, Iterable, Mapping
 
-from .case_text import (  # re-exported: these helpers used to live here
+from workbench.core.case.payload import (  # re-exported: these helpers used to live here
     _causes, _is_hash, _keys, _opt_str, _str, default_author, describe,
     describe_trail, exclusion_from_payload, exclusion_order, exclusion_payload, frozen_from_dict, printable,
     settings_changes, settings_from_dict, utc_now,
 )
-from .model import Exclusion, FrozenLimits, Settings, WorkbenchError
+from workbench.core.model import Exclusion, FrozenLimits, Settings, WorkbenchError
 
 __all__ = [
     "DEFAULT_CAUSES", "EVENT_KINDS", "FORMAT", "LIMIT_EVENTS", "MARKS", "NOTE_KINDS", "VERSION", "CaseState",

@@ -19,7 +19,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .model import WorkbenchError
+from workbench.core.model import WorkbenchError
 
 
 @dataclass(frozen=True)

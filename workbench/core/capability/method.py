@@ -6,10 +6,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .model import Spec, WorkbenchError
-from .nonnormal import (CANDIDATES, MIN_FIT_READINGS, FitInfo, boxcox, choose, fit_models,
+from workbench.core.model import Spec, WorkbenchError
+from workbench.core.capability.nonnormal import (CANDIDATES, MIN_FIT_READINGS, FitInfo, boxcox, choose, fit_models,
                         positive_readings)
-from .normality import Normality, normality
+from workbench.core.capability.normality import Normality, normality
 
 DISPLAY = {"normal": "normal", "lognormal": "lognormal", "weibull": "Weibull", "gamma": "gamma",
            "box-cox": "Box-Cox normal"}

@@ -13,7 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.signal import lfilter
 
-from .model import ChartResult, WorkbenchError
+from workbench.core.model import ChartResult, WorkbenchError
 
 EWMA_DESIGNS: tuple[tuple[float, float, float], ...] = (
     (0.05, 2.615, 500.0),

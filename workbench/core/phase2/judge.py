@@ -9,7 +9,7 @@ new ones) and returns the same :class:`~workbench.core.model.Analysis` that a fu
 first point and are recomputed in full.
 
 :class:`Watch` ties this to a case: it follows the case's data file with a
-:class:`~workbench.core.tail.Follower`, judges each new subgroup once, and records what it has
+:class:`~workbench.core.phase2.follow.Follower`, judges each new subgroup once, and records what it has
 seen so that the next look (``workbench watch CASE --once``) starts where this one ended.
 
 References
@@ -17,7 +17,7 @@ References
 Montgomery, D. C. *Introduction to Statistical Quality Control*, ch. 5-6: Phase I (trial
 limits from past data) and Phase II (monitoring new data against those limits).
 Western Electric Co. (1956), *Statistical Quality Control Handbook*; Nelson, L. S. (1984),
-JQT 16(4): the run rules, evaluated as in :mod:`workbench.core.rules`.
+JQT 16(4): the run rules, evaluated as in :mod:`workbench.core.charts.rules`.
 """
 from __future__ import annotations
 
@@ -30,12 +30,12 @@ from typing import Any
 
 import numpy as np
 
-from . import rules as R
-from .analysis import _subgroup_warnings, analyse, freeze, location_rules
-from .charts import SubgroupStats
-from .model import Analysis, ChartResult, Dataset, FrozenLimits, Signal, WorkbenchError
-from .signals import Group, SignalTable
-from .tail import Follower, Update, grow
+from workbench.core.charts import rules as R
+from workbench.core.analysis import _subgroup_warnings, analyse, freeze, location_rules
+from workbench.core.charts.variables import SubgroupStats
+from workbench.core.model import Analysis, ChartResult, Dataset, FrozenLimits, Signal, WorkbenchError
+from workbench.core.charts.signals import Group, SignalTable
+from workbench.core.phase2.follow import Follower, Update, grow
 
 INCREMENTAL_FROM = 500
 """Below this many subgroups a full ``analyse()`` is as cheap as the tail window."""
@@ -383,8 +383,8 @@ class Watch:
 
 def bench_append(tmpdir: Path, subgroups: int = 200_000, streams: int = 5) -> float:
     """Time to read and judge one appended subgroup, as a fraction of a full load of the file."""
-    from ..bench import write_wide_csv
-    from .data import load
+    from workbench.perf import write_wide_csv
+    from workbench.core.data.reader import load
     path = Path(tmpdir) / "phase2_append.csv"
     write_wide_csv(path, subgroups, streams, seed=3)
     follower = Follower.open(path)

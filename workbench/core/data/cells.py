@@ -1,4 +1,4 @@
-"""Converting the cells of one column of a :class:`~workbench.core.sniff.Table`.
+"""Converting the cells of one column of a :class:`~workbench.core.data.sniff.Table`.
 
 Each conversion is computed once per column and kept in the table's cache: the column as
 text (stripped, numbers without a needless ``.0``, workbook dates in ISO form), as float64
@@ -18,7 +18,7 @@ import numpy as np
 import pandas as pd
 
 if TYPE_CHECKING:
-    from workbench.core.sniff import Table
+    from workbench.core.data.sniff import Table
 
 MISSING_MARKERS = ("na", "n/a", "nan", "null", "none", "#n/a")
 _ISO_TIME = re.compile(r"^\d{4}-\d\d-\d\d([ T]\d\d:\d\d(:\d\d(\.\d+)?)?)?$")

@@ -18,9 +18,9 @@ from functools import lru_cache
 from math import exp, lgamma, sqrt
 
 import numpy as np
-from .tails import log_norm_cdf, norm_cdf
+from workbench.core.tails import log_norm_cdf, norm_cdf
 
-from .model import WorkbenchError
+from workbench.core.model import WorkbenchError
 
 MAX_N = 1000
 """Largest subgroup size for which constants are computed."""

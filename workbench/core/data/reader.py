@@ -1,6 +1,6 @@
 """Loading process data: a CSV, TSV or XLSX file becomes a :class:`Dataset`.
 
-Reading (encoding, delimiter, row numbers, cells) is in :mod:`workbench.core.sniff`.  This
+Reading (encoding, delimiter, row numbers, cells) is in :mod:`workbench.core.data.sniff`.  This
 module decides the layout and arranges the readings as subgroups x streams.
 
 Layout detection (each rule is skipped when the request gives that part):
@@ -37,9 +37,9 @@ import re
 import numpy as np
 import pandas as pd
 
-from workbench.core import sniff
+from workbench.core.data import sniff
 from workbench.core.model import LAYOUTS, Dataset, Layout, LayoutRequest, WorkbenchError
-from workbench.core.sniff import Table
+from workbench.core.data.sniff import Table
 
 _KEY = re.compile(r"^(subgroup|group|batch|lot|sample|time|timestamp|date|datetime|id)(no|nr|number|id)?$")
 _TIME = re.compile(r"^(time|timestamp|date|datetime)$")

@@ -24,14 +24,14 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import stats
 
-from . import capability_words as words
-from .capability_formulas import (BOUND_KINDS, Fallout, Indices, bissell_interval, boyles_cpm_interval,
+from workbench.core.capability import words
+from workbench.core.capability.formulas import (BOUND_KINDS, Fallout, Indices, bissell_interval, boyles_cpm_interval,
                                   centring_k, cp_chi2_interval, cpm_index, fallout, normal_fallout,
                                   normal_indices, observed_fallout, percentile_indices)
-from .capability_fit import BoxCoxInfo, resolve_method
-from .model import SIGMA_METHOD_LABELS, Spec, WorkbenchError
-from .nonnormal import FitInfo, boxcox_pdf, frozen, model_percentiles
-from .normality import Normality, normality
+from workbench.core.capability.method import BoxCoxInfo, resolve_method
+from workbench.core.model import SIGMA_METHOD_LABELS, Spec, WorkbenchError
+from workbench.core.capability.nonnormal import FitInfo, boxcox_pdf, frozen, model_percentiles
+from workbench.core.capability.normality import Normality, normality
 
 METHODS = ("normal", "box-cox", "percentile", "auto")
 Interval = tuple[float, float]

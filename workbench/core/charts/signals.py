@@ -12,7 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .model import Signal
+from workbench.core.model import Signal
 
 
 @dataclass(frozen=True, eq=False)

@@ -1,8 +1,8 @@
 """The case part of the reports: what a reviewer reads and signs.
 
-Views only: every figure comes from the replayed :class:`~workbench.core.case.CaseState`,
+Views only: every figure comes from the replayed :class:`~workbench.core.case.events.CaseState`,
 the trail and (when given) the current :class:`~workbench.core.model.Analysis`.  Text fields
-written by people are shown through :func:`~workbench.core.case.printable` (and escaped for
+written by people are shown through :func:`~workbench.core.case.events.printable` (and escaped for
 Markdown), so a note holding markup or terminal escape sequences is displayed, not obeyed.
 """
 from __future__ import annotations
@@ -10,10 +10,10 @@ from __future__ import annotations
 import re
 from typing import Any
 
-from .case import CaseState, describe_trail, printable
-from .casefile import Case, Verification, verify
-from .model import Analysis, Settings
-from .report import fmt
+from workbench.core.case.events import CaseState, describe_trail, printable
+from workbench.core.case.casefile import Case, Verification, verify
+from workbench.core.model import Analysis, Settings
+from workbench.core.report import fmt
 
 MAX_SIGNAL_ROWS = 200
 """Beyond this many signals only those with a state are listed one by one (the JSON has all)."""
@@ -32,7 +32,7 @@ def _verification(case: Case, verification: Verification | None) -> Verification
 def _limits_now(case: Case, analysis: Analysis | None) -> dict | None:
     if analysis is None:
         return case.state.limits
-    from .analysis import limits_snapshot
+    from workbench.core.analysis import limits_snapshot
     return limits_snapshot(analysis)
 
 

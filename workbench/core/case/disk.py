@@ -7,9 +7,9 @@ import socket
 from dataclasses import dataclass
 from pathlib import Path
 
-from .case import printable, utc_now
-from .case_format import canonical_json
-from .model import WorkbenchError
+from workbench.core.case.events import printable, utc_now
+from workbench.core.case.format import canonical_json
+from workbench.core.model import WorkbenchError
 
 
 def atomic_write(path: Path, data: bytes) -> None:

@@ -9,11 +9,11 @@ import math
 import textwrap
 from typing import Any
 
-from .capability import Capability
-from .capability_formulas import Fallout
-from .capability_histogram import text_histogram
-from .capability_words import num, ppm
-from .model import SIGMA_METHOD_LABELS
+from workbench.core.capability.assess import Capability
+from workbench.core.capability.formulas import Fallout
+from workbench.core.capability.histogram import text_histogram
+from workbench.core.capability.words import num, ppm
+from workbench.core.model import SIGMA_METHOD_LABELS
 
 __all__ = ["capability_json", "capability_text", "capability_markdown", "text_histogram"]
 

@@ -28,7 +28,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import stats
 
-from .model import ATTRIBUTE_CHARTS, ChartResult, WorkbenchError
+from workbench.core.model import ATTRIBUTE_CHARTS, ChartResult, WorkbenchError
 
 LANEY_MODES = ("auto", "on", "off")
 LANEY_CHARTS = ("p", "u")

@@ -19,7 +19,7 @@ than the header is an error.  Rows whose cells are all empty are dropped.
 Cells: empty cells and the markers NA, N/A, NaN, null, None and #N/A are missing.  A
 column parsed by pandas as numbers costs nothing more; only a column that did not parse
 is converted cell by cell (vectorised) to find the offending cells; those conversions are
-in :mod:`workbench.core.cells` (and still importable from here).
+in :mod:`workbench.core.data.cells` (and still importable from here).
 """
 from __future__ import annotations
 
@@ -39,7 +39,7 @@ from typing import Callable, Iterable
 import numpy as np
 import pandas as pd
 
-from workbench.core.cells import (  # re-exported: the cell conversions used to live here
+from workbench.core.data.cells import (  # re-exported: the cell conversions used to live here
     MISSING_MARKERS, Numbers, Times, as_numbers, as_text, as_times, column_kind, int_text, repeats,
 )
 from workbench.core.model import WorkbenchError

@@ -13,16 +13,16 @@ import os
 from pathlib import Path
 from typing import Any
 
-from .case import (
+from workbench.core.case.events import (
     DEFAULT_CAUSES, CaseState, Event, apply, default_author, exclusion_payload, replay, settings_from_dict, utc_now,
 )
-from .case_disk import CaseLock, LockHolder, atomic_write, backup_path, lock_path
-from .case_format import (
+from workbench.core.case.disk import CaseLock, LockHolder, atomic_write, backup_path, lock_path
+from workbench.core.case.format import (
     SUFFIX, DataRef, DataStatus, Document, build, canonical_json, chain_break, check_data, data_ref_from_dict,
     event_hash, jsonable, parse, read_bytes, read_json, render, seal, sha256,
 )
-from .case_verify import Verification, verify
-from .model import Analysis, Dataset, Exclusion, FrozenLimits, LayoutRequest, Settings, WorkbenchError
+from workbench.core.case.integrity import Verification, verify
+from workbench.core.model import Analysis, Dataset, Exclusion, FrozenLimits, LayoutRequest, Settings, WorkbenchError
 
 __all__ = [
     "Case", "CaseLock", "DataRef", "DataStatus", "Document", "LockHolder", "SUFFIX", "Verification", "atomic_write",
@@ -140,8 +140,8 @@ class Case:
     def create(cls, data_path: str | Path, request: LayoutRequest, settings: Settings, author: str | None = None,
                case_path: str | Path | None = None) -> "Case":
         """Load the data, compute the first limits and write a new case (never over an existing one)."""
-        from .analysis import analyse, limits_snapshot
-        from .data import load
+        from workbench.core.analysis import analyse, limits_snapshot
+        from workbench.core.data.reader import load
         dataset = load(str(data_path), request)
         return cls.create_for(dataset, request, settings, author, case_path,
                               limits=limits_snapshot(analyse(dataset, settings)))
@@ -284,7 +284,7 @@ class Case:
 
     def load_dataset(self) -> Dataset:
         """Load the referenced data with the recorded layout request (path relative to the case file)."""
-        from .data import load
+        from workbench.core.data.reader import load
         self.data_status = check_data(self.data, self.path)
         if self.data_status.status == "missing":
             raise WorkbenchError(self.data_status.message)
@@ -294,7 +294,7 @@ class Case:
 
     def analyse(self, dataset: Dataset, state: CaseState | None = None) -> Analysis:
         """``analyse()`` with the replayed setup, exclusions and frozen limits (the current state by default)."""
-        from .analysis import analyse
+        from workbench.core.analysis import analyse
         state = state or self.state
         if self._cache and self._cache[0] is dataset and self._cache[1] == state.head_hash and state is self.state:
             return self._cache[2]
@@ -305,7 +305,7 @@ class Case:
 
     def _record(self, dataset: Dataset, kind: str, payload: dict, author: str | None,
                 before: Analysis | None = None) -> Analysis:
-        from .analysis import analyse, limits_snapshot
+        from workbench.core.analysis import analyse, limits_snapshot
         _ev, state = self._event(kind, payload, author)  # checks the action before any analysis runs
         before = before or self.analyse(dataset)
         after = analyse(dataset, state.settings, state.exclusions, state.frozen)
@@ -333,7 +333,7 @@ class Case:
         return self._record(dataset, "settings", {"settings": settings.as_dict()}, author)
 
     def record_freeze(self, dataset: Dataset, author: str | None = None) -> Analysis:
-        from .analysis import freeze
+        from workbench.core.analysis import freeze
         self._check_writable()
         before = self.analyse(dataset)
         return self._record(dataset, "freeze", {"frozen": freeze(before).as_dict()}, author, before)

@@ -7,11 +7,11 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Iterable
 
-from .case import CaseState, Event, apply, replay
-from .case_format import (
+from workbench.core.case.events import CaseState, Event, apply, replay
+from workbench.core.case.format import (
     DataStatus, Document, build, canonical_json, chain_break, check_data, jsonable, read_bytes, read_json, render,
 )
-from .model import Dataset, WorkbenchError
+from workbench.core.model import Dataset, WorkbenchError
 
 
 @dataclass(frozen=True)
@@ -100,8 +100,8 @@ def _edited_text(raw: bytes, doc: Document) -> str | None:
 
 
 def _recompute_limits(doc: Document, status: DataStatus) -> list[str]:
-    from .analysis import analyse, limits_snapshot
-    from .data import load
+    from workbench.core.analysis import analyse, limits_snapshot
+    from workbench.core.data.reader import load
     datasets: dict[int, Dataset] = {}
     snaps: dict[tuple, dict] = {}
 
