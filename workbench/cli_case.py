@@ -51,7 +51,7 @@ def _done(case: Any) -> int:
 
 
 def cmd_new(args: argparse.Namespace) -> int:
-    from workbench.cli import layout_request_from_args, settings_from_args
+    from workbench.options import layout_request_from_args, settings_from_args
     from workbench.core.analysis import analyse, limits_snapshot
     from workbench.core.case.casefile import Case
     from workbench.core.data.reader import load
@@ -98,7 +98,7 @@ def cmd_mark(args: argparse.Namespace) -> int:
 
 
 def cmd_set(args: argparse.Namespace) -> int:
-    from workbench.cli import settings_from_args
+    from workbench.options import settings_from_args
     with _open(args) as case:
         case.record_settings(case.load_dataset(), settings_from_args(args, case.state.settings))
         return _done(case)
@@ -149,7 +149,7 @@ def cmd_verify(args: argparse.Namespace) -> int:
 
 def register(subparsers: Any) -> None:
     """Add the ``case`` and ``verify`` sub-commands to the main parser's subparsers."""
-    from workbench.cli import add_data_options, add_setup_options
+    from workbench.options import add_data_options, add_setup_options
     case = subparsers.add_parser("case", help="create a case file and record actions in its trail")
     sub = case.add_subparsers(dest="case_command", metavar="ACTION", required=True)
 

@@ -184,8 +184,8 @@ def _open_workbench(args: argparse.Namespace) -> int:
         from workbench.tui.app import run_app
     except ImportError:
         raise WorkbenchError("the workbench screen is not available here; use --headless or --once") from None
-    from workbench.cli import build_parser
-    targs = build_parser().parse_args(["open", args.case] + (["--author", args.author] if args.author else []))
+    from workbench.options import open_args
+    targs = open_args([args.case] + (["--author", args.author] if args.author else []))
     targs.watch, targs.watch_interval, targs.bell = True, args.interval, not args.no_bell
     return run_app(targs)
 

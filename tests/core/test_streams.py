@@ -4,7 +4,7 @@ import pytest
 from scipy import stats
 
 from tests.conftest import make_dataset
-from workbench.core.analysis import analyse
+from workbench.core.analysis import analyse, comparison_of
 from workbench.core.model import Exclusion, Settings
 from workbench.core.streams import breakdown, kruskal_wallis
 
@@ -20,7 +20,7 @@ def _data(shift=0.0, seed=4):
 def test_anova_and_kruskal_equal_scipy(shift):
     # scipy.stats.f_oneway and scipy.stats.kruskal as the reference implementations
     v = _data(shift)
-    cmp_ = analyse(make_dataset(v), Settings()).comparison
+    cmp_ = comparison_of(analyse(make_dataset(v), Settings()))
     f = stats.f_oneway(*v.T)
     k = stats.kruskal(*v.T)
     assert cmp_.anova_f == pytest.approx(f.statistic, rel=1e-10)
@@ -37,7 +37,7 @@ def test_kruskal_all_identical_is_undefined():
 def test_variance_components_and_advice():
     # one-way random-effects model, method of moments (Montgomery, Design and Analysis of Experiments)
     v = _data(2.0)
-    cmp_ = analyse(make_dataset(v), Settings()).comparison
+    cmp_ = comparison_of(analyse(make_dataset(v), Settings()))
     groups = v.T
     msw = np.mean([g.var(ddof=1) for g in groups])
     msb = 60 * np.var(groups.mean(axis=1), ddof=1)
@@ -49,8 +49,8 @@ def test_variance_components_and_advice():
 def test_excluded_readings_leave_the_stream_history():
     v = _data()
     a = analyse(make_dataset(v), Settings(), [Exclusion("5", "S2")])
-    assert a.comparison.counts == (60, 59, 60, 60)
-    assert a.comparison.means[1] == pytest.approx(np.delete(v[:, 1], 4).mean())
+    assert comparison_of(a).counts == (60, 59, 60, 60)
+    assert comparison_of(a).means[1] == pytest.approx(np.delete(v[:, 1], 4).mean())
 
 
 def test_breakdown_names_the_stream_out_of_line_and_its_range_share():

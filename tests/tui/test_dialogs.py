@@ -10,10 +10,9 @@ from workbench.tui.screens.bench import BenchScreen
 from tui_helpers import data_app, demo_app, screen_text, settle
 
 
-async def test_exclude_dialog_refuses_an_empty_reason(in_tmp):
+async def test_exclude_dialog_refuses_an_empty_reason(in_tmp, opened):
     app = demo_app()
-    async with app.run_test(size=(120, 36)) as pilot:
-        await settle(pilot)
+    async with opened(app, size=(120, 36)) as pilot:
         await pilot.press("x")
         await settle(pilot)
         dialog = app.screen
@@ -32,10 +31,9 @@ async def test_exclude_dialog_refuses_an_empty_reason(in_tmp):
         await pilot.press("q")
 
 
-async def test_exclude_one_reading_from_the_dialog(in_tmp):
+async def test_exclude_one_reading_from_the_dialog(in_tmp, opened):
     app = demo_app()
-    async with app.run_test(size=(120, 36)) as pilot:
-        await settle(pilot)
+    async with opened(app, size=(120, 36)) as pilot:
         await pilot.press("x")
         await settle(pilot)
         dialog = app.screen
@@ -54,10 +52,9 @@ async def test_exclude_one_reading_from_the_dialog(in_tmp):
         await pilot.press("q")
 
 
-async def test_setup_refuses_bad_numbers_and_records_a_settings_event(in_tmp):
+async def test_setup_refuses_bad_numbers_and_records_a_settings_event(in_tmp, opened):
     app = demo_app()
-    async with app.run_test(size=(120, 36)) as pilot:
-        await settle(pilot)
+    async with opened(app, size=(120, 36)) as pilot:
         await pilot.press("s")
         await settle(pilot)
         dialog = app.screen
@@ -81,13 +78,12 @@ async def test_setup_refuses_bad_numbers_and_records_a_settings_event(in_tmp):
         await pilot.press("q")
 
 
-async def test_mapping_dialog_when_the_layout_is_not_detected(in_tmp):
+async def test_mapping_dialog_when_the_layout_is_not_detected(in_tmp, opened):
     # numbered cavities: the key repeats and no text column can be the stream, so detection stops
     rows = ["lot,cavity_no,reading"] + [f"L{i // 2 + 1},{i % 2 + 1},{10 + (i * 7) % 5 / 10}" for i in range(40)]
     (in_tmp / "moulds.csv").write_text("\n".join(rows) + "\n", encoding="utf-8")
     app = data_app(in_tmp / "moulds.csv")
-    async with app.run_test(size=(120, 36)) as pilot:
-        await settle(pilot)
+    async with opened(app, size=(120, 36)) as pilot:
         dialog = app.screen
         assert isinstance(dialog, MappingDialog)
         assert "give --stream" in screen_text(app)
@@ -105,18 +101,16 @@ async def test_mapping_dialog_when_the_layout_is_not_detected(in_tmp):
         await pilot.press("q")
 
 
-async def test_an_existing_case_is_offered(in_tmp):
+async def test_an_existing_case_is_offered(in_tmp, opened):
     rows = ["sample,S1,S2,S3"] + [f"{i + 1},{5 + i % 3 / 10},{5 + i % 4 / 10},{5 + i % 5 / 10}" for i in range(30)]
     (in_tmp / "torque.csv").write_text("\n".join(rows) + "\n", encoding="utf-8")
     first = data_app(in_tmp / "torque.csv")
-    async with first.run_test(size=(120, 36)) as pilot:
-        await settle(pilot)
+    async with opened(first, size=(120, 36)) as pilot:
         assert isinstance(first.screen, BenchScreen)
         await pilot.press("q")
     for choice, name in (("new", "torque-2.case.json"), ("reuse", "torque.case.json")):
         app = data_app(in_tmp / "torque.csv")
-        async with app.run_test(size=(120, 36)) as pilot:
-            await settle(pilot)
+        async with opened(app, size=(120, 36)) as pilot:
             assert isinstance(app.screen, ChoiceDialog)
             await pilot.click(f"#choice-{choice}")
             await settle(pilot)
@@ -125,11 +119,10 @@ async def test_an_existing_case_is_offered(in_tmp):
             await pilot.press("q")
 
 
-async def test_q_in_a_dialog_cancels_it_or_types_it_never_quits(in_tmp):
+async def test_q_in_a_dialog_cancels_it_or_types_it_never_quits(in_tmp, opened):
     from workbench.tui.dialogs.reason import ReasonDialog
     app = demo_app()
-    async with app.run_test(size=(120, 36)) as pilot:
-        await settle(pilot)
+    async with opened(app, size=(120, 36)) as pilot:
         await pilot.press("L")  # the freeze question: buttons only
         await settle(pilot)
         assert isinstance(app.screen, ChoiceDialog)

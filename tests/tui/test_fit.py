@@ -8,10 +8,9 @@ from workbench.tui.screens.fit import FitScreen
 from tui_helpers import data_app, demo_app, screen_text, settle
 
 
-async def test_fit_view_shows_cautions_and_records_the_method(in_tmp):
+async def test_fit_view_shows_cautions_and_records_the_method(in_tmp, opened):
     app = demo_app()
-    async with app.run_test(size=(120, 40)) as pilot:
-        await settle(pilot)
+    async with opened(app, size=(120, 40)) as pilot:
         await pilot.press("f")
         await settle(pilot)
         assert isinstance(app.screen, FitScreen)
@@ -31,13 +30,12 @@ async def test_fit_view_shows_cautions_and_records_the_method(in_tmp):
         await pilot.press("escape", "q")
 
 
-async def test_fit_view_without_a_specification_offers_the_setup(in_tmp):
+async def test_fit_view_without_a_specification_offers_the_setup(in_tmp, opened):
     rng = np.random.default_rng(8)
     rows = [f"{i + 1},{a:.3f},{b:.3f}" for i, (a, b) in enumerate(rng.normal(3, 0.1, (25, 2)))]
     (in_tmp / "gap.csv").write_text("sample,A,B\n" + "\n".join(rows) + "\n", encoding="utf-8")
     app = data_app(in_tmp / "gap.csv")
-    async with app.run_test(size=(120, 36)) as pilot:
-        await settle(pilot)
+    async with opened(app, size=(120, 36)) as pilot:
         await pilot.press("f")
         await settle(pilot)
         assert "No specification is set" in screen_text(app) and "Press s" in screen_text(app)
@@ -54,11 +52,10 @@ async def test_fit_view_without_a_specification_offers_the_setup(in_tmp):
         await pilot.press("escape", "q")
 
 
-async def test_the_stability_gate_counts_only_open_signals(in_tmp):
+async def test_the_stability_gate_counts_only_open_signals(in_tmp, opened):
     from workbench.core.analysis import capability_for, open_signals
     app = demo_app()
-    async with app.run_test(size=(120, 40)) as pilot:
-        await settle(pilot)
+    async with opened(app, size=(120, 40)) as pilot:
         total = len(app.snapshot.analysis.signals)
         await pilot.press("n", "e")
         await settle(pilot)

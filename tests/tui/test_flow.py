@@ -17,7 +17,7 @@ def _drift() -> dict:
     return next(c for c in planted_causes() if c["file"] == "filler_line3.csv" and c["kind"] == "drift")
 
 
-async def test_demo_investigation_round_trip(in_tmp):
+async def test_demo_investigation_round_trip(in_tmp, opened):
     drift = _drift()
     app = demo_app()
     async with app.run_test(size=(120, 36), notifications=True) as pilot:
@@ -75,8 +75,7 @@ async def test_demo_investigation_round_trip(in_tmp):
     saved = (after.state.head_hash, after.state.exclusions, limits_snapshot(after.analysis), len(after.events))
 
     again = demo_app()
-    async with again.run_test(size=(120, 36)) as pilot:
-        await settle(pilot)
+    async with opened(again, size=(120, 36)) as pilot:
         snap = again.snapshot
         assert (snap.state.head_hash, snap.state.exclusions, limits_snapshot(snap.analysis), len(snap.events)) == saved
         assert not snap.readonly
@@ -84,10 +83,9 @@ async def test_demo_investigation_round_trip(in_tmp):
         await pilot.press("q")
 
 
-async def test_marks_and_restore_are_recorded(in_tmp):
+async def test_marks_and_restore_are_recorded(in_tmp, opened):
     app = demo_app()
-    async with app.run_test(size=(120, 36)) as pilot:
-        await settle(pilot)
+    async with opened(app, size=(120, 36)) as pilot:
         bench = app.screen
         await pilot.press("n")
         await settle(pilot)
@@ -129,7 +127,7 @@ async def test_marks_and_restore_are_recorded(in_tmp):
         await pilot.press("q")
 
 
-async def test_frozen_limits_mark_phase_two(in_tmp):
+async def test_frozen_limits_mark_phase_two(in_tmp, opened):
     import numpy as np
 
     from tui_helpers import data_app
@@ -138,8 +136,7 @@ async def test_frozen_limits_mark_phase_two(in_tmp):
     data = in_tmp / "caps.csv"
     data.write_text("sample,S1,S2,S3\n" + "\n".join(rows) + "\n", encoding="utf-8")
     app = data_app(data)
-    async with app.run_test(size=(120, 36)) as pilot:
-        await settle(pilot)
+    async with opened(app, size=(120, 36)) as pilot:
         await pilot.press("L")
         await settle(pilot)
         await pilot.click("#choice-freeze")
@@ -151,8 +148,7 @@ async def test_frozen_limits_mark_phase_two(in_tmp):
     with open(data, "a", encoding="utf-8") as fh:
         fh.write("\n".join(more) + "\n")
     app = data_app(data, reuse="reuse")
-    async with app.run_test(size=(120, 36)) as pilot:
-        await settle(pilot)
+    async with opened(app, size=(120, 36)) as pilot:
         snap = app.snapshot
         assert snap.dataset.m == 40 and snap.analysis.phase2_start == 30
         text = screen_text(app)

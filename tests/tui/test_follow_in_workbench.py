@@ -12,13 +12,12 @@ from workbench.tui.session import OpenRequest
 from tui_helpers import data_app, screen_text, settle
 
 
-async def _frozen_case(tmp_path):
+async def _frozen_case(tmp_path, opened):
     """A case on a copy of the filler demo with its limits frozen in the workbench; (data, case path)."""
     data = tmp_path / "filler.csv"
     shutil.copy(DEMO_DIR / "filler_line3.csv", data)
     app = data_app(data)
-    async with app.run_test(size=(120, 36)) as pilot:
-        await settle(pilot)
+    async with opened(app, size=(120, 36)) as pilot:
         assert app.screen.check_action("watch", ()) is None  # nothing to watch against before a freeze
         await pilot.press("L")
         await settle(pilot)
@@ -42,8 +41,8 @@ CALM = "{t},500.1,499.9,500.0,500.2,499.8,500.0"
 HIGH = "{t},504.1,503.9,504.0,504.2,503.8,504.0"
 
 
-async def test_watch_finds_a_planted_point_and_records_it(in_tmp):
-    data, case_path, m = await _frozen_case(in_tmp)
+async def test_watch_finds_a_planted_point_and_records_it(in_tmp, opened):
+    data, case_path, m = await _frozen_case(in_tmp, opened)
     app = WorkbenchApp(OpenRequest(case_path), hide_times=True, watch=True, watch_interval=3600, bell=True)
     bells = []
     app.bell = lambda: bells.append(1)
@@ -97,8 +96,8 @@ async def test_watch_finds_a_planted_point_and_records_it(in_tmp):
         assert any(k.startswith("xbar/beyond-limits/") for k in seen[-1].payload["signals"])
 
 
-async def test_the_key_stops_following_and_a_rewritten_file_stops_it(in_tmp):
-    data, case_path, m = await _frozen_case(in_tmp)
+async def test_the_key_stops_following_and_a_rewritten_file_stops_it(in_tmp, opened):
+    data, case_path, m = await _frozen_case(in_tmp, opened)
     app = WorkbenchApp(OpenRequest(case_path), hide_times=True, watch_interval=3600, bell=False)
     app.bell = lambda: (_ for _ in ()).throw(AssertionError("no bell with bell=False"))
     async with app.run_test(size=(120, 36), notifications=True) as pilot:

@@ -30,10 +30,9 @@ async def _hits(screen) -> list[str]:
     return [hit.text async for hit in provider.discover()]
 
 
-async def test_palette_and_greying_follow_check_action(in_tmp):
+async def test_palette_and_greying_follow_check_action(in_tmp, opened):
     app = demo_app()
-    async with app.run_test(size=(120, 36)) as pilot:
-        await settle(pilot)
+    async with opened(app, size=(120, 36)) as pilot:
         bench = app.screen
         assert isinstance(bench, BenchScreen)
         # subgroup 1 is in control and nothing is excluded: restore and the signal marks do not apply
@@ -68,10 +67,9 @@ async def test_palette_and_greying_follow_check_action(in_tmp):
         await pilot.press("q")
 
 
-async def test_escape_goes_back_from_every_screen(in_tmp):
+async def test_escape_goes_back_from_every_screen(in_tmp, opened):
     app = demo_app()
-    async with app.run_test(size=(120, 36)) as pilot:
-        await settle(pilot)
+    async with opened(app, size=(120, 36)) as pilot:
         for key in ("enter", "f", "t", "s", "x", "a", "question_mark"):
             await pilot.press(key)
             await settle(pilot)

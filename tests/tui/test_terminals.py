@@ -15,10 +15,9 @@ from workbench.tui.session import OpenRequest
 from tui_helpers import demo_app, screen_text, settle
 
 
-async def test_usable_at_80_by_24(in_tmp):
+async def test_usable_at_80_by_24(in_tmp, opened):
     app = demo_app()
-    async with app.run_test(size=(80, 24)) as pilot:
-        await settle(pilot)
+    async with opened(app, size=(80, 24)) as pilot:
         bench = app.screen
         assert isinstance(bench, BenchScreen) and bench.has_class("narrow") and bench.has_class("short")
         loc, spread = bench.query_one("#location"), bench.query_one("#spread")
@@ -61,16 +60,14 @@ def test_no_color_is_respected(monkeypatch):
     assert not WorkbenchApp(OpenRequest(Path("x.csv"))).no_color
 
 
-async def test_read_only_when_another_session_writes(in_tmp):
+async def test_read_only_when_another_session_writes(in_tmp, opened):
     app = demo_app()
-    async with app.run_test(size=(120, 36)) as pilot:
-        await settle(pilot)
+    async with opened(app, size=(120, 36)) as pilot:
         await pilot.press("q")
     holder = Case.open(in_tmp / "casefiles" / "filler_line3.case.json", author="someone@else")
     try:
         app = demo_app()
-        async with app.run_test(size=(120, 36)) as pilot:
-            await settle(pilot)
+        async with opened(app, size=(120, 36)) as pilot:
             bench = app.screen
             assert app.snapshot.readonly and "someone@else" in app.snapshot.readonly_reason
             for action in ("exclude", "note", "setup", "freeze"):
@@ -84,7 +81,7 @@ async def test_read_only_when_another_session_writes(in_tmp):
         holder.close()
 
 
-async def test_markup_and_escapes_in_data_show_literally(in_tmp):
+async def test_markup_and_escapes_in_data_show_literally(in_tmp, opened):
     rng = np.random.default_rng(11)
     streams = ("[bold]A", "B\x1b[31m", "C")
     ds = Dataset(path="odd.csv", sha256="0" * 64, rows=30, size_bytes=0, layout=Layout("wide", streams=streams),
@@ -92,8 +89,7 @@ async def test_markup_and_escapes_in_data_show_literally(in_tmp):
                  values=rng.normal(10, 1, (30, 3)))
     app = WorkbenchApp(OpenRequest(Path("odd.csv"), settings=Settings(), dataset=ds,
                                    case_path=in_tmp / "odd.case.json"), hide_times=True)
-    async with app.run_test(size=(120, 36)) as pilot:
-        await settle(pilot)
+    async with opened(app, size=(120, 36)) as pilot:
         text = screen_text(app)
         assert "[bold]A" in text and "B\\x1b[31m" in text and "[i]0" in text
         await pilot.press("a")
@@ -106,10 +102,9 @@ async def test_markup_and_escapes_in_data_show_literally(in_tmp):
         await pilot.press("q")
 
 
-async def test_a_click_on_a_point_selects_its_subgroup(in_tmp):
+async def test_a_click_on_a_point_selects_its_subgroup(in_tmp, opened):
     app = demo_app()
-    async with app.run_test(size=(120, 36)) as pilot:
-        await settle(pilot)
+    async with opened(app, size=(120, 36)) as pilot:
         bench = app.screen
         chart = bench.query_one("#location")
         pic = chart.picture

@@ -447,14 +447,52 @@ def open_signals(analysis: Analysis, states: dict[str, Any] | None = None) -> li
     return out
 
 
+def comparison_of(analysis: Analysis):
+    """The whole-dataset comparison of streams (``streams.compare``), computed on first use and kept
+    with the analysis; None when the data have no streams to compare."""
+    cache = analysis.__dict__
+    if "_comparison" not in cache:
+        from workbench.core.streams import compare
+        cache["_comparison"] = compare(analysis)
+    return cache["_comparison"]
+
+
+def capability_of(analysis: Analysis):
+    """A ``capability.assess.Capability`` when a specification is set, else None (computed on first
+    use, kept with the analysis); every signal counts as open for the stability gate.
+
+    Raises WorkbenchError for an invalid specification or data the method cannot handle.
+    """
+    cache = analysis.__dict__
+    if "_capability" not in cache:
+        spec = analysis.settings.spec
+        if spec is None or (spec.lsl is None and spec.usl is None):
+            cache["_capability"] = None
+        else:
+            _check_capability_input(analysis)
+            from workbench.core.capability.assess import assess
+            cache["_capability"] = assess(analysis.readings(), analysis.sigma_within, analysis.sigma_method, spec,
+                                          open_signals=len(analysis.signals))
+    return cache["_capability"]
+
+
+def _check_capability_input(analysis: Analysis) -> None:
+    if analysis.dataset.counts is not None:
+        raise WorkbenchError("capability against a specification applies to measured values, not to counts "
+                             "(for count data the chart's centre, e.g. the proportion defective, is the measure)")
+    if analysis.dataset.values is None:
+        raise WorkbenchError("capability needs the individual readings; summary data hold only subgroup "
+                             "statistics (export the readings, or remove --lsl/--usl)")
+
+
 def capability_for(analysis: Analysis, states: dict | None = None):
     """Capability with the stability gate counting only the signals still open under a case's states.
 
-    Without states every signal counts as open (``Analysis.capability``).  Returns None when no
-    specification is set; raises WorkbenchError as ``Analysis.capability`` does.
+    Without states every signal counts as open (``capability_of``).  Returns None when no
+    specification is set; raises WorkbenchError as ``capability_of`` does.
     """
     if states is None:
-        return analysis.capability
+        return capability_of(analysis)
     spec = analysis.settings.spec
     if spec is None or (spec.lsl is None and spec.usl is None):
         return None
@@ -462,10 +500,10 @@ def capability_for(analysis: Analysis, states: dict | None = None):
     cache = analysis.__dict__.setdefault("_capability_by_open", {})
     if n_open not in cache:
         if n_open == len(analysis.signals):
-            cache[n_open] = analysis.capability
+            cache[n_open] = capability_of(analysis)
         else:
             from workbench.core.capability.assess import assess
-            analysis.capability  # same input checks (counts, summary data)
+            _check_capability_input(analysis)
             cache[n_open] = assess(analysis.readings(), analysis.sigma_within, analysis.sigma_method, spec,
                                    open_signals=n_open)
     return cache[n_open]

@@ -489,31 +489,6 @@ class Analysis:
         r = v[~self.excluded_cells]
         return r[~np.isnan(r)]
 
-    @cached_property
-    def comparison(self) -> "StreamComparison | None":
-        """Whole-dataset comparison of streams (computed on first use)."""
-        from workbench.core.streams import compare
-        return compare(self)
-
-    @cached_property
-    def capability(self) -> Any:
-        """A ``capability.Capability`` when a specification is set, else None (computed on first use).
-
-        Raises WorkbenchError for an invalid specification or data the method cannot handle.
-        """
-        spec = self.settings.spec
-        if spec is None or (spec.lsl is None and spec.usl is None):
-            return None
-        if self.dataset.counts is not None:
-            raise WorkbenchError("capability against a specification applies to measured values, not to counts "
-                                 "(for count data the chart's centre, e.g. the proportion defective, is the measure)")
-        if self.dataset.values is None:
-            raise WorkbenchError("capability needs the individual readings; summary data hold only subgroup "
-                                 "statistics (export the readings, or remove --lsl/--usl)")
-        from workbench.core.capability.assess import assess
-        return assess(self.readings(), self.sigma_within, self.sigma_method, spec,
-                      open_signals=len(self.signals))
-
     def chart_named(self, name: str) -> ChartResult:
         for c in self.charts:
             if c.name == name:

@@ -10,8 +10,9 @@ from typing import Any
 
 import numpy as np
 
-from workbench.core.analysis import sigma_label
+from workbench.core.analysis import comparison_of, sigma_label
 from workbench.core.model import Analysis, ChartResult, WorkbenchError
+from workbench.core.text import fmt, md, printable
 
 SCHEMA = "workbench.report/1"
 MAX_TEXT_SIGNALS = 40
@@ -97,7 +98,7 @@ def report_json(a: Analysis, states: dict | None = None, with_values: bool = Fal
         out["labels"] = [str(x) for x in ds.labels.tolist()]
     if a.phase2_start is not None:
         out["phase"] = {"start": a.phase2_start, "frozen": True}
-    cmp_ = a.comparison
+    cmp_ = comparison_of(a)
     if cmp_ is not None:
         out["streams_comparison"] = {
             "streams": list(cmp_.streams), "means": [_num(x) for x in cmp_.means],
@@ -116,21 +117,6 @@ def report_json(a: Analysis, states: dict | None = None, with_values: bool = Fal
 
 def dumps(obj: Any) -> str:
     return json.dumps(obj, allow_nan=False, ensure_ascii=False, separators=(",", ":"))
-
-
-def fmt(v: Any, digits: int = 4) -> str:
-    """A number for people: up to ``digits`` decimals, '—' for missing or undefined."""
-    if v is None:
-        return "—"
-    if isinstance(v, dict):
-        return f"{fmt(v.get('min'), digits)} … {fmt(v.get('max'), digits)} (varies)"
-    v = float(v)
-    if not math.isfinite(v):
-        return "—"
-    if v != 0 and (abs(v) >= 1e6 or abs(v) < 10 ** -digits):
-        return f"{v:.{digits}g}"
-    text = f"{v:.{digits}f}".rstrip("0").rstrip(".")
-    return "0" if text in ("-0", "") else text
 
 
 def _limits_lines(a: Analysis) -> list[str]:
@@ -189,7 +175,7 @@ def report_text(a: Analysis, states: dict | None = None, width: int = 100) -> st
         L.append("")
         L.append(f"excluded  {len(a.exclusions)}: " + ", ".join(_p(e.key) for e in a.exclusions[:30])
                  + (" …" if len(a.exclusions) > 30 else ""))
-    cmp_ = a.comparison
+    cmp_ = comparison_of(a)
     if cmp_ is not None:
         L.append("")
         L.append("streams   " + "  ".join(f"{_p(s)} {fmt(m)}±{fmt(sd, 3)}" for s, m, sd in
@@ -207,13 +193,11 @@ def report_text(a: Analysis, states: dict | None = None, width: int = 100) -> st
 
 
 def _md_escape(text: str) -> str:
-    from workbench.core.case.review import md
     return md(text)
 
 
 def _p(text: Any) -> str:
     """Text from the data (path, labels, stream names) made printable for a terminal."""
-    from workbench.core.case.events import printable
     return printable(str(text))
 
 
@@ -258,7 +242,7 @@ def report_markdown(a: Analysis, states: dict | None = None) -> str:
             L.append(f"| {s.chart} | {s.rule} | {esc(span)} | {state} | {s.description} |")
     else:
         L.append("No signals.")
-    cmp_ = a.comparison
+    cmp_ = comparison_of(a)
     if cmp_ is not None:
         L += ["", "## Streams", "", "| stream | mean | SD | readings |", "|---|---|---|---|"]
         for s, m, sd, n in zip(cmp_.streams, cmp_.means, cmp_.sds, cmp_.counts):

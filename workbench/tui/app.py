@@ -13,6 +13,7 @@ from textual.binding import Binding
 from workbench.core.model import WorkbenchError
 
 from workbench.tui.commands import WorkbenchCommands
+from workbench.tui.keys import APP_BINDINGS
 from workbench.tui.dialogs.choice import ChoiceDialog
 from workbench.tui.dialogs.mapping import MappingDialog
 from workbench.tui.flows import Flows
@@ -31,11 +32,7 @@ class WorkbenchApp(Watching, Flows, App[int]):
     CSS_PATH = "app.tcss"
     TITLE = "workbench"
     COMMANDS = App.COMMANDS | {WorkbenchCommands}
-    BINDINGS = [
-        Binding("question_mark,f1", "help", "Help", id="help"),
-        Binding("q", "quit", "Quit", id="quit"),
-        Binding("ctrl+p", "command_palette", "Commands", id="commands", show=False),
-    ]
+    BINDINGS = list(APP_BINDINGS)
 
     def __init__(self, request: OpenRequest, hide_times: bool = False, quiet_reuse: bool = False,
                  watch: bool = False, watch_interval: float = 2.0, bell: bool = True) -> None:
@@ -190,7 +187,7 @@ class WorkbenchApp(Watching, Flows, App[int]):
 
 def request_from_args(args: argparse.Namespace) -> OpenRequest:
     """What ``workbench [open] ...`` asks to open (no path: the bundled demo)."""
-    from workbench.cli import layout_request_from_args, settings_from_args
+    from workbench.options import layout_request_from_args, settings_from_args
     from workbench.demo import demo_path, demo_settings_for
     path = Path(args.path) if getattr(args, "path", None) else demo_path()
     if not path.exists():

@@ -7,12 +7,13 @@ from textual.actions import parse
 from textual.binding import Binding
 from textual.command import DiscoveryHit, Hit, Hits, Provider
 
+from workbench.tui.keys import key_text
+
 
 class WorkbenchCommands(Provider):
     """Commands from the bindings of the screen the palette was opened over, and of the app."""
 
     def _commands(self) -> Iterator[tuple[str, str, object]]:
-        from workbench.tui.screens.help import key_text
         screen = self.screen
         seen = set()
         for target, bindings in ((screen, screen.BINDINGS), (self.app, self.app.BINDINGS)):

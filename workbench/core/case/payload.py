@@ -14,12 +14,19 @@ import socket
 import unicodedata
 from dataclasses import fields
 from datetime import datetime, timezone
-from typing import TYPE_CHECKING, Any, Iterable, Mapping
+from typing import Any, Iterable, Mapping, Protocol
 
+from workbench.core.text import printable
 from workbench.core.model import CHART_KINDS, SIGMA_METHODS, Exclusion, FrozenLimits, Settings, Spec, WorkbenchError
 
-if TYPE_CHECKING:
-    from workbench.core.case.events import Event
+
+
+class Event(Protocol):
+    """What the words below read of a trail event (``events.Event``; this module sits below it)."""
+
+    seq: int
+    kind: str
+    payload: dict
 
 # ---- payload pieces -------------------------------------------------------------------------
 
@@ -133,27 +140,6 @@ def default_author(explicit: str | None = None) -> str:
     except Exception:  # no login name available (containers without a passwd entry)
         user = "unknown"
     return f"{user}@{socket.gethostname()}"
-
-
-_ESCAPES = {"\n": "\\n", "\r": "\\r", "\t": "\\t"}
-
-
-def printable(text: str) -> str:
-    """Text with control characters and escape sequences made visible (``"\\x1b"`` -> ``"\\\\x1b"``).
-
-    C0/C1 controls, DEL and invisible format characters (e.g. bidirectional overrides) are
-    shown as escapes; everything else is unchanged.  The stored text is never altered.
-    """
-    out = []
-    for ch in str(text):
-        if ch in _ESCAPES:
-            out.append(_ESCAPES[ch])
-        elif unicodedata.category(ch) in ("Cc", "Cf", "Zl", "Zp"):
-            code = ord(ch)
-            out.append(f"\\x{code:02x}" if code < 0x100 else f"\\u{code:04x}")
-        else:
-            out.append(ch)
-    return "".join(out)
 
 
 def describe(ev: Event) -> str:

@@ -13,16 +13,10 @@ from typing import Any
 from workbench.core.case.events import CaseState, describe_trail, printable
 from workbench.core.case.casefile import Case, Verification, verify
 from workbench.core.model import Analysis, Settings
-from workbench.core.report import fmt
+from workbench.core.text import fmt, md
 
 MAX_SIGNAL_ROWS = 200
 """Beyond this many signals only those with a state are listed one by one (the JSON has all)."""
-_MD_SPECIAL = re.compile(r"([\\`*_\[\]<>|#~!])")
-
-
-def md(text: Any) -> str:
-    """Text made printable and safe inside Markdown (markup characters escaped)."""
-    return _MD_SPECIAL.sub(r"\\\1", printable(str(text)))
 
 
 def _verification(case: Case, verification: Verification | None) -> Verification:

@@ -12,13 +12,20 @@ from __future__ import annotations
 import re
 import warnings
 from dataclasses import dataclass
-from typing import TYPE_CHECKING
+from typing import Protocol
 
 import numpy as np
 import pandas as pd
 
-if TYPE_CHECKING:
-    from workbench.core.data.sniff import Table
+
+
+class Table(Protocol):
+    """What the conversions read of a ``sniff.Table`` (this module sits below it): named cell columns."""
+
+    frame: "pd.DataFrame"
+    decimal: str
+    text_columns: set
+    _cache: dict
 
 MISSING_MARKERS = ("na", "n/a", "nan", "null", "none", "#n/a")
 _ISO_TIME = re.compile(r"^\d{4}-\d\d-\d\d([ T]\d\d:\d\d(:\d\d(\.\d+)?)?)?$")

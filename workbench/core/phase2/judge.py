@@ -22,7 +22,6 @@ JQT 16(4): the run rules, evaluated as in :mod:`workbench.core.charts.rules`.
 from __future__ import annotations
 
 import dataclasses
-import time
 import weakref
 from dataclasses import dataclass
 from pathlib import Path
@@ -377,45 +376,3 @@ class Watch:
             raise WorkbenchError(f"{self.case.path}: the limits were unfrozen or frozen anew; start the watch again")
         self.analysis = self.case.analyse(self.dataset)
         return self.analysis
-
-
-# ---- the benchmark --------------------------------------------------------------------------
-
-def bench_append(tmpdir: Path, subgroups: int = 200_000, streams: int = 5) -> float:
-    """Time to read and judge one appended subgroup, as a fraction of a full load of the file."""
-    from workbench.perf import write_wide_csv
-    from workbench.core.data.reader import load
-    path = Path(tmpdir) / "phase2_append.csv"
-    write_wide_csv(path, subgroups, streams, seed=3)
-    follower = Follower.open(path)
-    fr = freeze(analyse(follower.dataset))
-    before = analyse(follower.dataset, frozen=fr)
-    loads = []
-    for _ in range(3):
-        t = time.perf_counter()
-        load(path)
-        loads.append(time.perf_counter() - t)
-    t_load = min(loads)
-    rng = np.random.default_rng(4)
-    stamp = follower.dataset.times[-1]
-    polls, judges = [], []
-    for _ in range(7):
-        stamp = stamp + np.timedelta64(1, "m")
-        row = [str(stamp.astype("datetime64[m]")).replace("T", " ")] + [f"{v:.2f}" for v in rng.normal(500, 0.5, streams)]
-        with open(path, "a", encoding="utf-8") as fh:
-            fh.write(",".join(row) + "\n")
-        t0 = time.perf_counter()
-        u = follower.poll()
-        t1 = time.perf_counter()
-        after = extend(before, u.dataset, fr)
-        new_signals(before, after)
-        t2 = time.perf_counter()
-        if u.new != 1:
-            raise RuntimeError(f"bench_append: expected one new subgroup, the poll found {u.new}")
-        polls.append(t1 - t0)
-        judges.append(t2 - t1)
-        before = after
-    best = int(np.argmin(np.add(polls, judges)))
-    print(f"  append one subgroup to {subgroups:,}: read {polls[best] * 1000:.1f} ms + judge "
-          f"{judges[best] * 1000:.1f} ms;  full load {t_load * 1000:.0f} ms")
-    return (polls[best] + judges[best]) / t_load

@@ -8,26 +8,17 @@ from textual.containers import Vertical, VerticalScroll
 from textual.screen import ModalScreen
 from textual.widgets import Static
 
+from workbench.tui.keys import APP_BINDINGS, KEY_NAMES, key_text  # noqa: F401 (re-exported)
 from workbench.tui.plotting import COLOUR, GLYPH, rgb
-
-KEY_NAMES = {"right": "→", "left": "←", "up": "↑", "down": "↓", "enter": "enter", "escape": "esc",
-             "plus": "+", "equals_sign": "=", "minus": "-", "less_than_sign": "<", "greater_than_sign": ">",
-             "question_mark": "?", "pageup": "PgUp", "pagedown": "PgDn", "home": "Home", "end": "End"}
-
-
-def key_text(keys: str) -> str:
-    return " / ".join(KEY_NAMES.get(k.strip(), k.strip()) for k in keys.split(","))
-
 
 def binding_groups() -> list[tuple[str, list[Binding]]]:
     """(screen title, bindings) for every screen of the workbench."""
-    from workbench.tui.app import WorkbenchApp
     from workbench.tui.screens.bench import BenchScreen
     from workbench.tui.screens.breakdown import BreakdownScreen
     from workbench.tui.screens.fit import FitScreen
     from workbench.tui.screens.trail import TrailScreen
     groups = [("Bench", BenchScreen.BINDINGS), ("Breakdown", BreakdownScreen.BINDINGS), ("Fit", FitScreen.BINDINGS),
-              ("Trail", TrailScreen.BINDINGS), ("Everywhere", WorkbenchApp.BINDINGS),
+              ("Trail", TrailScreen.BINDINGS), ("Everywhere", APP_BINDINGS),
               ("Dialogs", [Binding("escape,q", "cancel", "Cancel the dialog (q outside a text field)", id="dialog-cancel"),
                            Binding("enter", "confirm", "Confirm (in a text field)", id="dialog-confirm"),
                            Binding("ctrl+s", "apply", "Apply the setup", id="dialog-apply"),

@@ -3,6 +3,7 @@ from __future__ import annotations
 
 from rich.text import Text
 
+from workbench.core.analysis import comparison_of
 from workbench.core.model import Analysis
 from workbench.core.report import fmt
 
@@ -12,7 +13,7 @@ from workbench.tui.view import safe
 def comparison_text(a: Analysis) -> Text:
     """Per-stream means and SDs, ANOVA and Kruskal–Wallis, variance split and the advice."""
     try:
-        cmp_ = a.comparison
+        cmp_ = comparison_of(a)
     except Exception as exc:  # a comparison that cannot be made is shown, not raised
         return Text(f"the streams cannot be compared: {exc}")
     if cmp_ is None:

@@ -3,18 +3,18 @@ from pathlib import Path
 
 import numpy as np
 
-from workbench.core.analysis import analyse
+from workbench.core.analysis import analyse, capability_of
 from workbench.core.capability.assess import assess
 from workbench.core.data.reader import load
 from workbench.core.model import Exclusion, Settings, Spec
 
-DEMO = Path(__file__).resolve().parents[2] / "demo_data" / "filler_line3.csv"
+DEMO = Path(__file__).resolve().parents[3] / "demo_data" / "filler_line3.csv"
 SPEC = Spec(lsl=497.0, usl=503.0, target=500.0)  # stated in demo_data/README.md (invented scenario)
 
 
 def test_an_outlier_no_model_fits_withholds_the_verdict():
     a = analyse(load(DEMO), Settings(spec=SPEC))
-    cap = a.capability
+    cap = capability_of(a)
     assert cap.method != "normal"
     assert cap.verdict.startswith("No capability verdict")
     assert any("describes the readings poorly" in w for w in cap.warnings)
@@ -31,4 +31,4 @@ def test_normal_data_keep_their_verdict():
 def test_excluding_the_mis_keyed_reading_changes_the_model_choice():
     ds = load(DEMO)
     a = analyse(ds, Settings(spec=SPEC), [Exclusion("2026-03-03 15:30", "H2")])
-    assert a.capability.ppm_observed.total == 0  # the 509.6 reading was the only one above the USL
+    assert capability_of(a).ppm_observed.total == 0  # the 509.6 reading was the only one above the USL

@@ -27,7 +27,7 @@ import pytest
 from workbench.core.data.reader import describe_layout, load
 from workbench.core.model import LayoutRequest
 
-DEMO = Path(__file__).resolve().parents[2] / "demo_data"
+DEMO = Path(__file__).resolve().parents[3] / "demo_data"
 
 
 def write_rows(path: Path, rows: list[list[str]], delimiter: str = ",", encoding: str = "utf-8") -> Path:
