@@ -67,30 +67,70 @@ def cmd_new(args: argparse.Namespace) -> int:
 
 
 def cmd_exclude(args: argparse.Namespace) -> int:
+    from workbench.core.case.ranges import exclude_range, parse_range
     with _open(args) as case:
         ds = case.load_dataset()
-        case.record_exclusion(ds, Exclusion.parse(args.target, ds.streams), args.reason, args.cause, args.signal)
+        span = parse_range(ds, args.target)
+        if span is not None:
+            if args.signal:
+                raise WorkbenchError("--signal names one signal; a range answers every signal in it")
+            exclude_range(case, ds, *span, args.reason, args.cause)
+        else:
+            case.record_exclusion(ds, Exclusion.parse(args.target, ds.streams), args.reason, args.cause, args.signal)
         return _done(case)
 
 
 def cmd_restore(args: argparse.Namespace) -> int:
+    from workbench.core.case.ranges import parse_range, restore_range
     with _open(args) as case:
         ds = case.load_dataset()
-        case.record_restore(ds, Exclusion.parse(args.target, ds.streams), args.reason)
+        span = parse_range(ds, args.target)
+        if span is not None:
+            restore_range(case, ds, *span, args.reason)
+        else:
+            case.record_restore(ds, Exclusion.parse(args.target, ds.streams), args.reason)
         return _done(case)
 
 
 def cmd_note(args: argparse.Namespace) -> int:
+    from workbench.core.case.ranges import note_range, parse_range
     with _open(args) as case:
-        on = case.note_target(case.load_dataset(), args.target) if args.target else "case"
+        ds = case.load_dataset() if args.target else None
+        span = parse_range(ds, args.target) if ds is not None else None
+        if span is not None:
+            note_range(case, ds, *span, args.text)
+            return _done(case)
+        on = case.note_target(ds, args.target) if args.target else "case"
         case.note(args.text, args.target, on)
         return _done(case)
 
 
-def cmd_mark(args: argparse.Namespace) -> int:
+def cmd_retract(args: argparse.Namespace) -> int:
+    from workbench.core.case.ranges import last_retractable, retract
     with _open(args) as case:
+        seq = args.event
+        if seq is None:
+            last = last_retractable(case)
+            if last is None:
+                raise WorkbenchError(f"{case.author} has no note, mark, exclusion or restore left to retract "
+                                     "(give the event number)")
+            seq = last.seq
+        target = case.events[seq - 1] if 1 <= seq <= len(case.events) else None
+        needs_data = target is not None and target.kind in ("exclude", "restore")
+        retract(case, case.load_dataset() if needs_data else None, seq, args.reason)
+        return _done(case)
+
+
+def cmd_mark(args: argparse.Namespace) -> int:
+    from workbench.core.case.ranges import mark_many, parse_range, signals_in
+    with _open(args) as case:
+        ds = case.load_dataset()
+        span = parse_range(ds, args.key)
+        if span is not None:
+            mark_many(case, signals_in(case.analyse(ds), *span), args.state, args.note, span=(ds, *span))
+            return _done(case)
         if args.key not in case.state.signal_states:
-            keys = {s.key for s in case.analyse(case.load_dataset()).signals}
+            keys = {s.key for s in case.analyse(ds).signals}
             if args.key not in keys:
                 raise WorkbenchError(f"no signal {args.key!r} in this case (workbench report {args.case} lists them)")
         case.mark_signal(args.key, args.state, args.note)
@@ -169,18 +209,27 @@ def register(subparsers: Any) -> None:
     for name, func, words in (("exclude", cmd_exclude, "leave a subgroup or one reading out of the limits"),
                               ("restore", cmd_restore, "put an excluded subgroup or reading back")):
         p = action(name, func, words)
-        p.add_argument("target", metavar="SUBGROUP[:STREAM]", help="subgroup label, or label:stream for one reading")
+        p.add_argument("target", metavar="SUBGROUP[:STREAM]|FIRST..LAST",
+                       help="subgroup label, label:stream for one reading, or a range FIRST..LAST (labels or "
+                            "1-based positions, inclusive; one event for the whole range)")
         p.add_argument("--reason", required=True, help="why (required)")
         if name == "exclude":
             p.add_argument("--cause", metavar="CATEGORY", help="cause category from the case's list")
             p.add_argument("--signal", metavar="KEY", help="the signal this exclusion answers")
     p = action("note", cmd_note, "add a note on the case, a subgroup or a signal")
-    p.add_argument("target", nargs="?", metavar="TARGET", help="a subgroup label (or LABEL:STREAM) or a signal key")
+    p.add_argument("target", nargs="?", metavar="TARGET",
+                   help="a subgroup label (or LABEL:STREAM), a range FIRST..LAST, or a signal key")
     p.add_argument("text", metavar="TEXT", help="the note (quote it)")
     p = action("mark", cmd_mark, "set a signal's state")
-    p.add_argument("key", metavar="SIGNAL-KEY", help="e.g. xbar/beyond-limits/17")
+    p.add_argument("key", metavar="SIGNAL-KEY|FIRST..LAST",
+                   help="e.g. xbar/beyond-limits/17, or a range: every signal that fired in it (one event)")
     p.add_argument("state", choices=MARKS)
     p.add_argument("--note", help="what was found")
+    p = action("retract", cmd_retract, "take back a note, mark, exclusion or restore (a new event; nothing "
+                                         "is deleted)")
+    p.add_argument("event", nargs="?", type=int, metavar="EVENT",
+                   help="the event number in the trail (default: your own last such action)")
+    p.add_argument("--reason", required=True, help="why (required)")
     p = action("set", cmd_set, "change the setup (chart, rules, specification)")
     add_setup_options(p)
     action("freeze", cmd_freeze, "freeze the current limits for new data (Phase II)")

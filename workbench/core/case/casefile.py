@@ -356,7 +356,8 @@ class Case:
 
 _VERBS = {"exclude": "exclude", "restore": "restore", "note": "add the note", "signal": "mark the signal",
           "settings": "change the setup", "freeze": "freeze the limits", "unfreeze": "unfreeze the limits",
-          "causes": "change the cause list", "created": "create the case", "data-appended": "record the new data"}
+          "causes": "change the cause list", "created": "create the case", "data-appended": "record the new data",
+          "retract": "retract"}
 
 
 def _body(seq: int, kind: str, payload: dict, author: str, before: dict | None, after: dict | None,

@@ -21,7 +21,7 @@ from workbench.core.model import Exclusion, FrozenLimits, Settings, WorkbenchErr
 
 __all__ = [
     "DEFAULT_CAUSES", "EVENT_KINDS", "FORMAT", "LIMIT_EVENTS", "MARKS", "NOTE_KINDS", "VERSION", "CaseState",
-    "Event", "ExclusionInfo", "Note", "SignalState", "apply", "default_author", "describe", "describe_trail",
+    "Event", "ExclusionInfo", "Note", "RETRACTABLE", "SignalState", "apply", "range_from_payload", "default_author", "describe", "describe_trail",
     "exclusion_from_payload", "exclusion_order", "exclusion_payload", "frozen_from_dict", "printable",
     "replay", "settings_changes", "settings_from_dict", "utc_now",
 ]
@@ -30,12 +30,14 @@ FORMAT = "workbench.case"
 VERSION = 1
 DEFAULT_CAUSES = ("people", "machine", "method", "material", "measurement", "environment")
 EVENT_KINDS = ("created", "settings", "exclude", "restore", "note", "signal", "freeze", "unfreeze", "causes",
-               "data-appended")
+               "data-appended", "retract")
 LIMIT_EVENTS = ("created", "settings", "exclude", "restore", "freeze", "unfreeze")
 """Events that change the limits and so record them (before and after)."""
 MARKS = ("explained", "no-cause-found", "open")
 """Signal states a user sets; "excluded" follows from an exclusion that answers the signal."""
-NOTE_KINDS = ("case", "subgroup", "signal")
+NOTE_KINDS = ("case", "subgroup", "signal", "range")
+RETRACTABLE = ("exclude", "restore", "note", "signal")
+"""Events a user may take back with a ``retract`` event (the original stays in the trail)."""
 
 
 @dataclass(frozen=True)
@@ -126,6 +128,8 @@ class ExclusionInfo:
     time: str
     seq: int
     """The exclude event."""
+    signals: tuple[str, ...] = ()
+    """Further signals answered (a range exclusion answers every signal in its range)."""
 
 
 @dataclass(frozen=True)
@@ -185,10 +189,14 @@ class CaseState:
     seen: Mapping[str, Any] | None = None
     """Phase II: the last ``data-appended`` payload since the current freeze (subgroups, rows,
     size_bytes, sha256), or None when nothing new has been judged yet."""
+    retracted: Mapping[int, int] = field(default_factory=dict)
+    """Number of a retracted event -> number of the ``retract`` event that took it back."""
+    trail: tuple = field(default=(), repr=False, compare=False)
+    """The events replayed so far (a retraction replays them without the retracted one)."""
 
     def signal_state(self, key: str) -> str:
         """open | explained | no-cause-found | excluded (an exclusion answers it)."""
-        if any(info.signal == key for info in self.exclusion_info.values()):
+        if any(info.signal == key or key in info.signals for info in self.exclusion_info.values()):
             return "excluded"
         mark = self.signal_states.get(key)
         return mark.state if mark else "open"
@@ -210,24 +218,29 @@ class _Builder:
     created_by: str = ""
     created_time: str = ""
     seen: dict | None = None
+    retracted: dict = field(default_factory=dict)
+    trail: list = field(default_factory=list)
 
     @classmethod
     def of(cls, s: CaseState) -> "_Builder":
         return cls(s.settings, dict(s.exclusion_info), {e.key: e for e in s.exclusions}, list(s.notes),
                    dict(s.signal_states), s.frozen, s.causes, s.first_limits, s.limits, s.head_hash, s.seq,
-                   s.created_by, s.created_time, dict(s.seen) if s.seen else None)
+                   s.created_by, s.created_time, dict(s.seen) if s.seen else None, dict(s.retracted), list(s.trail))
 
     def state(self) -> CaseState:
         return CaseState(self.settings, tuple(sorted(self.targets.values(), key=exclusion_order)), dict(self.info),
                          tuple(self.notes), dict(self.marks), self.frozen, tuple(self.causes), self.first_limits,
-                         self.limits, self.head, self.seq, self.created_by, self.created_time, self.seen)
+                         self.limits, self.head, self.seq, self.created_by, self.created_time, self.seen,
+                         dict(self.retracted), tuple(self.trail))
 
-    def apply(self, ev: Event) -> None:
+    def apply(self, ev: Event, replaying: bool = False) -> None:
         where, p = f"event {ev.seq}", ev.payload
-        if (ev.kind == "created") != (ev.seq == 1):
-            raise WorkbenchError(f"{where}: the trail must start with exactly one 'created' event")
-        if ev.seq != self.seq + 1:
-            raise WorkbenchError(f"{where}: expected event {self.seq + 1}")
+        if not replaying:
+            if (ev.kind == "created") != (ev.seq == 1):
+                raise WorkbenchError(f"{where}: the trail must start with exactly one 'created' event")
+            if ev.seq != self.seq + 1:
+                raise WorkbenchError(f"{where}: expected event {self.seq + 1}")
+            self.trail.append(ev)
         _keys(p, where, _PAYLOAD_KEYS[ev.kind])
         k = ev.kind
         if k == "created":
@@ -243,21 +256,28 @@ class _Builder:
         elif k == "causes":
             self.causes = _causes(p.get("causes"), where)
         elif k in ("exclude", "restore"):
-            target = exclusion_from_payload(p, where)
+            first = exclusion_from_payload(p, where)
             reason = _str(p.get("reason"), where, "reason", empty=False)
+            span = range_from_payload(p, where)
+            targets = [first] if span is None else [Exclusion(label) for label in span["subgroups"]]
+            if span is not None and first.stream is not None:
+                raise WorkbenchError(f"{where}: a range is of whole subgroups, not readings")
             if k == "restore":
-                if target.key not in self.targets:
-                    raise WorkbenchError(f"{where}: {target.key} is not excluded")
-                del self.targets[target.key], self.info[target.key]
+                for target in targets:
+                    if target.key not in self.targets:
+                        raise WorkbenchError(f"{where}: {target.key} is not excluded")
+                    del self.targets[target.key], self.info[target.key]
             else:
-                if target.key in self.targets:
-                    raise WorkbenchError(f"{where}: {target.key} is already excluded")
                 cause, signal = _opt_str(p.get("cause"), where, "cause"), _opt_str(p.get("signal"), where, "signal")
                 if cause is not None and cause not in self.causes:
                     raise WorkbenchError(f"{where}: cause {cause!r} is not in the cause list "
                                          f"({', '.join(self.causes)})")
-                self.targets[target.key] = target
-                self.info[target.key] = ExclusionInfo(reason, cause, signal, ev.author, ev.time, ev.seq)
+                answered = tuple(span["signals"]) if span is not None else ()
+                for target in targets:
+                    if target.key in self.targets:
+                        raise WorkbenchError(f"{where}: {target.key} is already excluded")
+                    self.targets[target.key] = target
+                    self.info[target.key] = ExclusionInfo(reason, cause, signal, ev.author, ev.time, ev.seq, answered)
         elif k == "note":
             kind = _str(p.get("on"), where, "on")
             if kind not in NOTE_KINDS:
@@ -265,13 +285,29 @@ class _Builder:
             target = _str(p.get("target"), where, "target", empty=kind == "case")
             if kind == "case" and target:
                 raise WorkbenchError(f"{where}: a note on the case has no target")
+            if (kind == "range") != ("range" in p):
+                raise WorkbenchError(f"{where}: a note on a range has its range, and only such a note")
+            if kind == "range":
+                range_from_payload(p, where)
             self.notes.append(Note(target, _str(p.get("text"), where, "text", empty=False), ev.author, ev.time,
                                    ev.seq, kind))
         elif k == "signal":
             key, mark = _str(p.get("key"), where, "key", empty=False), _str(p.get("state"), where, "state")
             if mark not in MARKS:
                 raise WorkbenchError(f"{where}: signal state {mark!r} is not one of {', '.join(MARKS)}")
-            self.marks[key] = SignalState(mark, _opt_str(p.get("note"), where, "note"), ev.author, ev.time, ev.seq)
+            keys = [key]
+            if "keys" in p:  # several signals marked at once (all in a range, or all selected)
+                keys = p["keys"]
+                if not isinstance(keys, list) or not keys or keys[0] != key or len(set(keys)) != len(keys) \
+                        or not all(isinstance(x, str) and x for x in keys):
+                    raise WorkbenchError(f"{where}: keys must be distinct signal keys starting with key")
+            if "range" in p:
+                range_from_payload(p, where)
+            note = _opt_str(p.get("note"), where, "note")
+            for one in keys:
+                self.marks[one] = SignalState(mark, note, ev.author, ev.time, ev.seq)
+        elif k == "retract":
+            self._retract(ev, where)
         elif k == "freeze":
             if self.frozen is not None:
                 raise WorkbenchError(f"{where}: the limits are already frozen")
@@ -299,20 +335,77 @@ class _Builder:
             if k == "created":
                 self.first_limits = ev.limits_after
             self.limits = ev.limits_after
-        self.head, self.seq = ev.hash, ev.seq
+        if not replaying:
+            self.head, self.seq = ev.hash, ev.seq
+
+    def _retract(self, ev: Event, where: str) -> None:
+        """Take back an earlier note, mark, exclusion or restore: the state becomes the replay of the
+        trail without it (every later event must still apply)."""
+        seq = p_seq = ev.payload.get("event")
+        if type(seq) is not int or not 1 <= seq < ev.seq:
+            raise WorkbenchError(f"{where}: event must be the number of an earlier event, not {p_seq!r}")
+        _str(ev.payload.get("reason"), where, "reason", empty=False)
+        target = self.trail[seq - 1]
+        if target.kind not in RETRACTABLE:
+            raise WorkbenchError(f"{where}: a {target.kind} event cannot be retracted (only "
+                                 f"{', '.join(RETRACTABLE)})")
+        if seq in self.retracted:
+            raise WorkbenchError(f"{where}: event {seq} was already retracted by event {self.retracted[seq]}")
+        if ev.payload.get("hash") != target.hash:
+            raise WorkbenchError(f"{where}: the hash does not name event {seq} of this trail")
+        gone = set(self.retracted) | {seq}
+        fresh = _Builder()
+        for old in self.trail[:-1]:
+            if old.seq in gone or old.kind == "retract":
+                continue
+            try:
+                fresh.apply(old, replaying=True)
+            except WorkbenchError as exc:
+                raise WorkbenchError(f"{where}: without event {seq}, event {old.seq} no longer applies "
+                                     f"({str(exc).removeprefix(f'event {old.seq}: ')}); retract that one first") \
+                    from None
+        self.settings, self.info, self.targets, self.notes = fresh.settings, fresh.info, fresh.targets, fresh.notes
+        self.marks, self.frozen, self.causes, self.seen = fresh.marks, fresh.frozen, fresh.causes, fresh.seen
+        self.retracted[seq] = ev.seq
+
+
+def range_from_payload(p: Mapping[str, Any], where: str) -> dict | None:
+    """The ``range`` of a payload, checked (None when there is none).
+
+    ``{"first": label, "last": label, "count": n, "subgroups": [labels, in data order]}``; a range
+    exclusion also names the signals it answers (``"signals"``).  ``count`` is the number of
+    subgroups the event changes; ``first``/``last`` are the ends the user gave.
+    """
+    r = p.get("range")
+    if r is None:
+        return None
+    if not isinstance(r, dict) or set(r) - {"first", "last", "count", "subgroups", "signals"}:
+        raise WorkbenchError(f"{where}: range must be an object with first, last, count, subgroups")
+    _str(r.get("first"), where, "range first", empty=False)
+    _str(r.get("last"), where, "range last", empty=False)
+    subs, count = r.get("subgroups"), r.get("count")
+    if not isinstance(subs, list) or not all(isinstance(x, str) and x for x in subs) or len(set(subs)) != len(subs):
+        raise WorkbenchError(f"{where}: range subgroups must be a list of distinct labels")
+    if type(count) is not int or count != len(subs) or count < 1:
+        raise WorkbenchError(f"{where}: range count must be the number of its subgroups")
+    sig = r.get("signals", [])
+    if not isinstance(sig, list) or not all(isinstance(x, str) for x in sig):
+        raise WorkbenchError(f"{where}: range signals must be a list of signal keys")
+    return {"first": r["first"], "last": r["last"], "count": count, "subgroups": subs, "signals": sig}
 
 
 _PAYLOAD_KEYS = {
     "created": ({"settings", "causes", "data_ref"}, set()),
     "settings": ({"settings"}, set()),
     "causes": ({"causes"}, set()),
-    "exclude": ({"subgroup", "reason"}, {"stream", "cause", "signal"}),
-    "restore": ({"subgroup", "reason"}, {"stream"}),
-    "note": ({"on", "target", "text"}, set()),
-    "signal": ({"key", "state"}, {"note"}),
+    "exclude": ({"subgroup", "reason"}, {"stream", "cause", "signal", "range"}),
+    "restore": ({"subgroup", "reason"}, {"stream", "range"}),
+    "note": ({"on", "target", "text"}, {"range"}),
+    "signal": ({"key", "state"}, {"note", "keys", "range"}),
     "freeze": ({"frozen"}, set()),
     "unfreeze": ({"reason"}, set()),
     "data-appended": ({"subgroups", "rows", "size_bytes", "sha256"}, {"signals"}),
+    "retract": ({"event", "hash", "reason"}, set()),
 }
 
 

@@ -145,16 +145,31 @@ def default_author(explicit: str | None = None) -> str:
 def describe(ev: Event) -> str:
     """One line in plain words for the trail view and reports (text made printable)."""
     p, q = ev.payload, lambda s: printable(s) if isinstance(s, str) else str(s)
+    if ev.kind in ("exclude", "restore") and p.get("range"):
+        r = p["range"]
+        extra = "".join(f"; {name} {q(p[name])}" for name in ("cause",) if p.get(name))
+        return (f"{'excluded' if ev.kind == 'exclude' else 'restored'} subgroups {q(r['first'])}..{q(r['last'])} "
+                f"({r['count']} subgroup{'s' if r['count'] != 1 else ''}): {q(p['reason'])}{extra}")
     if ev.kind in ("exclude", "restore"):
         what = ("reading " if p.get("stream") is not None else "subgroup ") + q(
             p["subgroup"] if p.get("stream") is None else f"{p['subgroup']}:{p['stream']}")
         extra = "".join(f"; {name} {q(p[name])}" for name in ("cause", "signal") if p.get(name))
         return f"{'excluded' if ev.kind == 'exclude' else 'restored'} {what}: {q(p['reason'])}{extra}"
+    if ev.kind == "note" and p.get("range"):
+        r = p["range"]
+        return f"note on subgroups {q(r['first'])}..{q(r['last'])} ({r['count']} subgroups): {q(p['text'])}"
     if ev.kind == "note":
         on = "the case" if p["on"] == "case" else f"{p['on']} {q(p['target'])}"
         return f"note on {on}: {q(p['text'])}"
+    if ev.kind == "signal" and p.get("keys"):
+        n = len(p["keys"])
+        where = f" in subgroups {q(p['range']['first'])}..{q(p['range']['last'])}" if p.get("range") else ""
+        return (f"{n} signal{'s' if n != 1 else ''}{where} marked {p['state']}"
+                + (f": {q(p['note'])}" if p.get("note") else ""))
     if ev.kind == "signal":
         return f"signal {q(p['key'])} marked {p['state']}" + (f": {q(p['note'])}" if p.get("note") else "")
+    if ev.kind == "retract":
+        return f"retracted event {p['event']}: {q(p['reason'])}"
     if ev.kind == "settings":
         return "setup changed"
     if ev.kind == "causes":
@@ -172,9 +187,13 @@ def describe(ev: Event) -> str:
 
 def describe_trail(events: Iterable[Event]) -> list[str]:
     """:func:`describe` for each event, with the fields a setup change changed."""
+    events = list(events)
+    retracted = {ev.payload.get("event"): ev.seq for ev in events if ev.kind == "retract"}
     out, current = [], None
     for ev in events:
         line = describe(ev)
+        if ev.seq in retracted:
+            line = f"[retracted by event {retracted[ev.seq]}] {line}"
         if ev.kind in ("created", "settings"):
             new = Settings.from_dict(ev.payload["settings"])
             if current is not None:
