@@ -44,12 +44,19 @@ def is_case_path(path: str) -> bool:
 def cmd_report(args: argparse.Namespace) -> int:
     from workbench.core.analysis import analyse, open_signals
     from workbench.core.report import render
+    from workbench.core.case.disk import check_output
     states = None
     extra = ""
+    inputs = _report_inputs(args.path)
+    if args.output:  # refused before anything is read or computed
+        check_output(args.output, inputs)
     if is_case_path(args.path):
         from workbench.core.case.casefile import Case
         from workbench.core.case import review as case_report
         case = Case.open(args.path, readonly=True)
+        inputs = _report_inputs(args.path, case)
+        if args.output:
+            check_output(args.output, inputs)
         for n in case.notices:
             print(f"workbench: {n}", file=sys.stderr)
         from workbench.core.case.format import check_data
@@ -79,10 +86,7 @@ def cmd_report(args: argparse.Namespace) -> int:
         a = analyse(ds, settings, excl)
         text = render(a, args.format, with_values=args.points)
     out = text + (("\n" + extra) if extra else "")
-    if args.output:
-        Path(args.output).write_text(out, encoding="utf-8")
-    else:
-        sys.stdout.write(out)
+    _emit(args, out, inputs)
     if args.fail_on_signal and open_signals(a, states):
         return 1
     return 0
@@ -103,11 +107,27 @@ def _report_case_without_data(case, args: argparse.Namespace, why: str) -> int:
             case_report.case_report_markdown(case, None)
     else:
         out = f"DATA UNAVAILABLE: {why}. Limits cannot be recomputed.\n\n" + case_report.case_report_text(case, None)
+    _emit(args, out, _report_inputs(args.path, case))
+    return 1
+
+
+def _report_inputs(path: str, case=None) -> list[Path]:
+    """What a report reads and so must never write over: the input, and for a case its .bak, lock and data."""
+    inputs = [Path(path)]
+    if case is not None:
+        from workbench.core.case.disk import backup_path, lock_path
+        inputs += [backup_path(case.path), lock_path(case.path),
+                   Path(os.path.normpath(Path(case.path).parent / case.data.path))]
+    return inputs
+
+
+def _emit(args: argparse.Namespace, out: str, inputs: list[Path]) -> None:
+    """The report to stdout, or with -o through the one safe writer (never over an input)."""
     if args.output:
-        Path(args.output).write_text(out, encoding="utf-8")
+        from workbench.core.case.disk import write_output
+        write_output(args.output, out.encode("utf-8"), inputs)
     else:
         sys.stdout.write(out)
-    return 1
 
 
 def _default_settings_for(path: str) -> Settings | None:

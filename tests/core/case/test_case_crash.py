@@ -76,7 +76,7 @@ def test_kill_9_at_random_moments_loses_no_acknowledged_action(tmp_path):
         result = verify(path, recompute=False)
         assert result.intact, result.problems
         parse(backup_path(path).read_bytes(), "bak")  # the previous version is whole too
-        assert not [n for n in os.listdir(path.parent) if n.endswith(".tmp")]
+        assert not [n for n in os.listdir(path.parent) if n.endswith((".tmp", ".wbtmp"))]
     assert len(acked) >= 6
 
 

@@ -16,7 +16,9 @@ from typing import Any
 from workbench.core.case.events import (
     DEFAULT_CAUSES, CaseState, Event, apply, default_author, exclusion_payload, replay, settings_from_dict, utc_now,
 )
-from workbench.core.case.disk import CaseLock, LockHolder, atomic_write, backup_path, lock_path
+from workbench.core.case.disk import (
+    CaseLock, LockHolder, atomic_write, backup_path, clean_temps, keep_previous, lock_path,
+)
 from workbench.core.case.format import (
     SUFFIX, DataRef, DataStatus, Document, build, canonical_json, chain_break, check_data, data_ref_from_dict,
     event_hash, jsonable, parse, read_bytes, read_json, render, seal, sha256,
@@ -93,6 +95,9 @@ class Case:
         else:
             if not path.is_file():
                 read_bytes(path)  # the one-line error for a missing file
+            if path.is_symlink():
+                raise WorkbenchError(f"{path}: the case file is a symbolic link (to {os.readlink(path)}); workbench "
+                                     "does not write through links: open the real file")
             try:
                 lock, holder, notice = CaseLock.acquire(path, author)
             except WorkbenchError as exc:  # e.g. a folder we may read but not write
@@ -131,9 +136,7 @@ class Case:
             lock.release()
             lock = None
         if lock:  # temporary files of a writer that was killed mid-write (writers hold the lock)
-            for name in os.listdir(path.parent):
-                if name.startswith(f".{path.name}.") and name.endswith(".tmp"):
-                    (path.parent / name).unlink(missing_ok=True)
+            clean_temps(path)
         return cls(path, doc, raw, author, lock, reason, status, notices)
 
     @classmethod
@@ -220,7 +223,7 @@ class Case:
         on_disk = read_bytes(self.path)
         if on_disk != self._raw:
             raise WorkbenchError(f"{self.path} was changed by something else since it was opened; reopen it")
-        atomic_write(backup_path(self.path), self._raw)
+        keep_previous(self.path, backup_path(self.path), self._raw)
         atomic_write(self.path, raw)
         self._raw, self.events, self.state = raw, self.events + (ev,), state
         return ev

@@ -3,26 +3,97 @@ from __future__ import annotations
 
 import json
 import os
+import secrets
 import socket
+import stat
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Iterable
 
 from workbench.core.case.events import printable, utc_now
-from workbench.core.case.format import canonical_json
+from workbench.core.case.format import SUFFIX, canonical_json
 from workbench.core.model import WorkbenchError
 
 
-def atomic_write(path: Path, data: bytes) -> None:
+# ---- the one safe writer ----------------------------------------------------------------------
+
+TMP_SUFFIX = ".wbtmp"
+"""Temporary files of this tool end so (``.NAME.<random>.wbtmp``), which lets a writer clean them."""
+
+_NOFOLLOW = getattr(os, "O_NOFOLLOW", 0)
+_EXCL = os.O_WRONLY | os.O_CREAT | os.O_EXCL | getattr(os, "O_NOFOLLOW", 0) | getattr(os, "O_CLOEXEC", 0)
+
+
+def _umask() -> int:
+    try:
+        with open("/proc/self/status", encoding="ascii") as fh:
+            for line in fh:
+                if line.startswith("Umask:"):
+                    return int(line.split()[1], 8)
+    except (OSError, ValueError):
+        pass
+    old = os.umask(0o022)
+    os.umask(old)
+    return old
+
+
+def exclusive_temp(folder: Path, name: str) -> tuple[int, Path]:
+    """A new temporary file beside ``name`` with an unpredictable name, opened O_EXCL|O_NOFOLLOW.
+
+    Common practice for atomic replace: the name cannot be guessed ahead, and a file or symbolic
+    link planted under it makes the open fail rather than be followed.
+    """
+    for _ in range(100):
+        tmp = folder / f".{name}.{secrets.token_hex(8)}{TMP_SUFFIX}"
+        try:
+            return os.open(tmp, _EXCL, 0o600), tmp
+        except FileExistsError:
+            continue
+    raise FileExistsError(f"{folder}: no free temporary file name")
+
+
+def _target_stat(path: Path, what: str) -> os.stat_result | None:
+    """The existing target's status; refuses a symbolic link and a file made read-only."""
+    try:
+        st = os.lstat(path)
+    except FileNotFoundError:
+        return None
+    if stat.S_ISLNK(st.st_mode):
+        raise WorkbenchError(f"{path}: the {what} is a symbolic link (to {os.readlink(path)}); workbench does not write "
+                             "through links: give the real path")
+    if not stat.S_ISREG(st.st_mode):
+        raise WorkbenchError(f"{path}: the {what} is not a regular file")
+    if not st.st_mode & stat.S_IWUSR:
+        raise WorkbenchError(f"{path}: the {what} is read-only (mode {stat.S_IMODE(st.st_mode):04o}); make it "
+                             "writable first if it is meant to change")
+    return st
+
+
+def atomic_write(path: Path, data: bytes, what: str = "case file") -> None:
     """Write ``data`` to ``path`` so that a crash leaves either the old or the new file, never a mix.
 
-    A temporary file in the same folder is written and fsynced, renamed over ``path``, and
-    the folder is fsynced so the rename itself is durable.
+    Common practice for atomic replace with an exclusive temporary file: the bytes go to a new
+    file in the same folder (unpredictable name, ``O_EXCL|O_NOFOLLOW``, never a file someone
+    planted), which is given the old file's mode and owner, fsynced, renamed over ``path``, and
+    the folder is fsynced so the rename itself is durable.  A ``path`` that is a symbolic link
+    or read-only is refused; a new file gets the usual mode (0666 less the umask).
     """
     path = Path(path)
-    tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
+    st = _target_stat(path, what)
+    tmp = None
     try:
-        fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_TRUNC, 0o644)
+        fd, tmp = exclusive_temp(path.parent, path.name)
         try:
+            if st is None:
+                os.fchmod(fd, 0o666 & ~_umask())
+            else:
+                if (st.st_uid, st.st_gid) != (os.geteuid(), os.getegid()):
+                    try:
+                        os.fchown(fd, st.st_uid, st.st_gid)
+                    except PermissionError:
+                        raise WorkbenchError(f"{path}: the {what} belongs to another user (uid {st.st_uid}); "
+                                             "replacing it would change its owner") from None
+                os.fchmod(fd, stat.S_IMODE(st.st_mode))
             view = memoryview(data)
             while view:
                 view = view[os.write(fd, view):]
@@ -30,13 +101,41 @@ def atomic_write(path: Path, data: bytes) -> None:
         finally:
             os.close(fd)
         os.replace(tmp, path)
+        tmp = None
     except OSError as exc:
-        try:
-            os.unlink(tmp)
-        except OSError:
-            pass
-        raise WorkbenchError(f"{path}: cannot write the case file: {exc.strerror or exc}") from None
+        raise WorkbenchError(f"{path}: cannot write the {what}: {exc.strerror or exc}") from None
+    finally:
+        if tmp is not None:
+            try:
+                os.unlink(tmp)
+            except OSError:
+                pass
     fsync_dir(path.parent)
+
+
+def write_output(path: str | Path, data: bytes, inputs: Iterable[str | Path] = ()) -> None:
+    """Write a report or export: never over one of ``inputs``, a case file, its ``.bak`` or its lock; atomically."""
+    check_output(path, inputs)
+    atomic_write(Path(path), data, "output file")
+
+
+def check_output(path: str | Path, inputs: Iterable[str | Path] = ()) -> None:
+    """Refuse (one line) an output path that names an input, a case file or one of its companions."""
+    out = Path(path)
+    name = out.name
+    if any(name.endswith(end) for end in (SUFFIX, SUFFIX + ".bak", SUFFIX + ".lock")) or name.endswith(TMP_SUFFIX):
+        raise WorkbenchError(f"{out}: refusing to write output over a case file or its companions "
+                             "(choose another name)")
+    for src in inputs:
+        if _same_file(out, Path(src)):
+            raise WorkbenchError(f"{out}: refusing to write output over an input ({src}); choose another name")
+
+
+def _same_file(a: Path, b: Path) -> bool:
+    try:
+        return os.path.samefile(a, b)
+    except OSError:
+        return os.path.realpath(a) == os.path.realpath(b)
 
 
 def fsync_dir(folder: Path) -> None:
@@ -50,6 +149,40 @@ def fsync_dir(folder: Path) -> None:
         pass
     finally:
         os.close(fd)
+
+
+def keep_previous(path: Path, bak: Path, previous: bytes) -> None:
+    """Make ``bak`` the version of ``path`` about to be replaced: a hard link to it (no copy), else a copy."""
+    try:
+        if stat.S_ISLNK(os.lstat(path).st_mode):
+            raise WorkbenchError(f"{path}: the case file is a symbolic link; workbench does not write through links")
+        for _ in range(100):
+            tmp = bak.with_name(f".{bak.name}.{secrets.token_hex(8)}{TMP_SUFFIX}")
+            try:
+                os.link(path, tmp, follow_symlinks=False)
+                break
+            except FileExistsError:
+                continue
+        else:
+            raise FileExistsError(f"{bak.parent}: no free temporary file name")
+        os.replace(tmp, bak)
+    except (NotImplementedError, OSError):  # no hard links here: write a copy
+        atomic_write(bak, previous, "previous version (.bak)")
+
+
+def clean_temps(path: Path) -> list[str]:
+    """Remove temporary files a killed writer of this case left (``.NAME.*.wbtmp``, older ``.NAME.PID.tmp``)."""
+    gone = []
+    for name in os.listdir(path.parent):
+        for stem in (path.name, path.name + ".bak"):
+            if name.startswith(f".{stem}.") and (name.endswith(TMP_SUFFIX) or name[len(stem) + 2:-4].isdigit()
+                                                   and name.endswith(".tmp")):
+                try:
+                    os.unlink(path.parent / name)  # a link is removed, never followed
+                    gone.append(name)
+                except OSError:
+                    pass
+    return gone
 
 
 def backup_path(path: Path) -> Path:
@@ -114,9 +247,9 @@ class CaseLock:
         me = canonical_json({"author": author, "host": socket.gethostname(), "pid": os.getpid(), "time": utc_now()})
         for _attempt in range(5):
             try:
-                fd = os.open(path, os.O_RDWR | os.O_CREAT | (0 if fcntl else os.O_EXCL), 0o644)
+                fd = os.open(path, os.O_RDWR | os.O_CREAT | _NOFOLLOW | (0 if fcntl else os.O_EXCL), 0o644)
             except FileExistsError:
-                fd = os.open(path, os.O_RDONLY)
+                fd = os.open(path, os.O_RDONLY | _NOFOLLOW)
                 holder = _read_holder(fd)
                 os.close(fd)
                 return None, holder, None
