@@ -125,11 +125,48 @@ def _empty_app():
     return Empty()
 
 
+def ready(app) -> bool:
+    """The bench is on screen with its snapshot and a drawn location chart: the user can work."""
+    from workbench.tui.screens.bench import BenchScreen
+    s = app.screen
+    return isinstance(s, BenchScreen) and s.snap is not None and s.query_one("#location").picture is not None
+
+
+def open_until_ready(path: str, report: str, size: tuple[int, int] = (120, 36)) -> None:
+    """Open a data file in the workbench (headless) and return as soon as the bench is usable.
+
+    Run in a fresh process by ``workbench perf``, which times the whole process; writes to
+    ``report`` the progress-bar steps (percent) posted to the opening screen, comma separated.
+    """
+    from workbench.tui.app import WorkbenchApp
+    from workbench.tui.messages import OpenProgress
+    from workbench.tui.session import OpenRequest
+
+    with tempfile.TemporaryDirectory() as tmp:
+        app = WorkbenchApp(OpenRequest(path=Path(path), case_path=Path(tmp) / "opened.case.json", reuse="new"),
+                           hide_times=True)
+        seen: list[int] = []
+
+        def hook(message) -> None:
+            if isinstance(message, OpenProgress):
+                seen.append(round(100 * message.fraction))
+
+        async def run() -> None:
+            async with app.run_test(size=size, message_hook=hook) as pilot:
+                while not ready(app):
+                    if app.error:
+                        raise RuntimeError(app.error)
+                    await pilot.pause(0.005)
+                app.close_session()
+
+        asyncio.run(run())
+    Path(report).write_text(",".join(str(v) for v in seen), encoding="utf-8")
+
+
 def measure_keypress(subgroups: int = 200_000, presses: int = 20, size: tuple[int, int] = (120, 36)) -> dict:
     """Median press → repaint time (ms) on the bench with ``subgroups`` subgroups and on an empty app."""
     from workbench.core.model import Settings
     from workbench.tui.app import WorkbenchApp
-    from workbench.tui.screens.bench import BenchScreen
     from workbench.tui.session import OpenRequest
 
     ds = generated_dataset(subgroups)
@@ -137,11 +174,6 @@ def measure_keypress(subgroups: int = 200_000, presses: int = 20, size: tuple[in
         req = OpenRequest(path=Path(tmp) / "generated.csv", settings=Settings(), dataset=ds,
                           case_path=Path(tmp) / "generated.case.json", reuse="new")
         app = WorkbenchApp(req, hide_times=True)
-
-        def ready(a) -> bool:
-            s = a.screen
-            return isinstance(s, BenchScreen) and s.snap is not None and s.query_one("#location").picture is not None
-
         app_times, empty_times = asyncio.run(_time_presses(app, _empty_app(), size, presses, "right", ready))
     app_ms, empty_ms = statistics.median(app_times), statistics.median(empty_times)
     return {"app_ms": round(app_ms, 3), "empty_ms": round(empty_ms, 3),
