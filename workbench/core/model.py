@@ -448,6 +448,8 @@ class StreamComparison:
     """var_between / (var_between + var_within)."""
     differ: bool
     advice: str
+    kruskal_ranks: str | None = None
+    """How the Kruskal–Wallis ranks were found (exact by counting at the readings' resolution, or by a sort)."""
 
 
 @dataclass(frozen=True, eq=False)

@@ -104,7 +104,8 @@ def report_json(a: Analysis, states: dict | None = None, with_values: bool = Fal
             "streams": list(cmp_.streams), "means": [_num(x) for x in cmp_.means],
             "sds": [_num(x) for x in cmp_.sds], "counts": list(cmp_.counts),
             "anova": {"f": cmp_.anova_f, "p": cmp_.anova_p, "method": "one-way ANOVA (scipy.stats.f_oneway)"},
-            "kruskal_wallis": {"h": cmp_.kruskal_h, "p": cmp_.kruskal_p, "method": "scipy.stats.kruskal"},
+            "kruskal_wallis": {"h": cmp_.kruskal_h, "p": cmp_.kruskal_p, "method": "scipy.stats.kruskal",
+                               "ranks": cmp_.kruskal_ranks},
             "variance": {"between": cmp_.var_between, "within": cmp_.var_within, "share_between": cmp_.share_between},
             "differ": cmp_.differ, "advice": cmp_.advice}
     from workbench.core.analysis import capability_for

@@ -20,7 +20,8 @@ Kruskal, W. H. & Wallis, W. A. (1952). Use of ranks in one-criterion variance an
 from __future__ import annotations
 
 import numpy as np
-from workbench.core.tails import chi2_sf, f_sf
+from workbench.core.ranks import kruskal_wallis, kruskal_with_method  # noqa: F401 (kruskal_wallis: re-exported)
+from workbench.core.tails import f_sf
 
 from workbench.core.model import Analysis, Breakdown, StreamComparison, StreamRow
 
@@ -30,16 +31,44 @@ Z_NOTABLE = 2.0
 """|z| against the stream's own history above which a reading is called out."""
 
 
-def _history(a: Analysis) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def _stream_readings(a: Analysis) -> list[np.ndarray]:
+    """Each stream's non-excluded, non-missing readings (a view of its column when nothing is left out)."""
     v = a.dataset.values
-    used = np.where(a.excluded_cells, np.nan, v)
-    ok = ~np.isnan(used)
-    n = ok.sum(axis=0)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        mean = np.where(ok, used, 0.0).sum(axis=0) / n
-        dev = np.where(ok, used - mean, 0.0)
-        sd = np.sqrt((dev * dev).sum(axis=0) / (n - 1))
-    return mean, sd, n
+    cells = a.excluded_cells
+    if cells is not None and not cells.flags.writeable:  # a broadcast of the subgroup mask
+        keep_rows = ~a.excluded_subgroups if a.excluded_subgroups.any() else None
+        cells = None
+    else:
+        keep_rows = None
+    out = []
+    for j in range(v.shape[1]):
+        col = v[:, j]
+        if keep_rows is not None:
+            col = col[keep_rows]
+        elif cells is not None:
+            col = col[~cells[:, j]]
+        nan = np.isnan(col)
+        out.append(col[~nan] if nan.any() else col)
+    return out
+
+
+def _history(a: Analysis) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Each stream's mean, SD and count over its non-excluded readings (kept with the analysis)."""
+    cache = a.__dict__
+    if "_stream_history" not in cache:
+        groups = _stream_readings(a)
+        n = np.array([g.size for g in groups])
+        mean = np.full(len(groups), np.nan)
+        ss = np.full(len(groups), np.nan)
+        for j, g in enumerate(groups):
+            if g.size:
+                mean[j] = g.mean()
+                dev = g - mean[j]
+                ss[j] = (dev * dev).sum()
+        with np.errstate(invalid="ignore", divide="ignore"):
+            sd = np.sqrt(ss / (n - 1))
+        cache["_stream_history"] = (mean, sd, n, ss, groups)
+    return cache["_stream_history"][:3]
 
 
 def compare(a: Analysis) -> StreamComparison | None:
@@ -48,21 +77,21 @@ def compare(a: Analysis) -> StreamComparison | None:
     if ds.values is None or ds.k < 2:
         return None
     mean, sd, n = _history(a)
-    used = np.where(a.excluded_cells, np.nan, ds.values)
-    groups = [col[~np.isnan(col)] for col in used.T]
-    valid = [g for g in groups if g.size >= 2]
+    ss, groups = a.__dict__["_stream_history"][3:]
+    valid = [j for j, g in enumerate(groups) if g.size >= 2]
     f = p = h = hp = vb = vw = share = None
+    ranks = None
     if len(valid) >= 2:
-        sizes = np.array([g.size for g in valid], float)
+        sizes = n[valid].astype(float)
         big_n, k = sizes.sum(), len(valid)
-        gm = sum(g.sum() for g in valid) / big_n
-        ssb = sum(g.size * (g.mean() - gm) ** 2 for g in valid)
-        ssw = sum(((g - g.mean()) ** 2).sum() for g in valid)
+        gm = float((sizes * mean[valid]).sum()) / big_n
+        ssb = float((sizes * (mean[valid] - gm) ** 2).sum())
+        ssw = float(ss[valid].sum())
         msb, msw = ssb / (k - 1), ssw / (big_n - k)
         with np.errstate(all="ignore"):
             f = _num(msb / msw) if msw > 0 else None
             p = _num(f_sf(f, k - 1, big_n - k)) if f is not None else None
-            h, hp = kruskal_wallis(valid)
+            h, hp, ranks = kruskal_with_method([groups[j] for j in valid])
         n0 = (big_n - (sizes ** 2).sum() / big_n) / (k - 1)
         vb, vw = max(0.0, (msb - msw) / n0), float(msw)
         share = vb / (vb + vw) if (vb + vw) > 0 else None
@@ -71,34 +100,7 @@ def compare(a: Analysis) -> StreamComparison | None:
     return StreamComparison(
         streams=ds.streams, means=tuple(float(x) for x in mean), sds=tuple(float(x) for x in sd),
         counts=tuple(int(x) for x in n), anova_f=f, anova_p=p, kruskal_h=h, kruskal_p=hp,
-        var_between=vb, var_within=vw, share_between=share, differ=differ, advice=advice)
-
-
-def kruskal_wallis(groups: list[np.ndarray]) -> tuple[float | None, float | None]:
-    """Kruskal–Wallis H (with the tie correction) and its chi-square p-value on k − 1 df.
-
-    References
-    ----------
-    Kruskal & Wallis (1952), JASA 47: H = 12/(N(N+1)) Σ Rⱼ²/nⱼ − 3(N+1), divided by
-    1 − Σ(t³ − t)/(N³ − N) for ties.
-    """
-    x = np.concatenate(groups)
-    big_n = x.size
-    order = np.argsort(x)  # ties get their mean rank below, so the sort need not be stable
-    xs = x[order]
-    # average ranks of ties: ranks of each run of equal values share their mean
-    starts = np.flatnonzero(np.r_[True, xs[1:] != xs[:-1]])
-    counts = np.diff(np.r_[starts, big_n])
-    mean_rank = starts + (counts + 1) / 2.0
-    ranks = np.empty(big_n)
-    ranks[order] = np.repeat(mean_rank, counts)
-    ties = 1.0 - float(np.sum(counts.astype(float) ** 3 - counts)) / (float(big_n) ** 3 - big_n)
-    if ties <= 0:
-        return None, None
-    bounds = np.cumsum([0] + [g.size for g in groups])
-    h = 12.0 / (big_n * (big_n + 1.0)) * sum(ranks[a:b].sum() ** 2 / (b - a) for a, b in zip(bounds, bounds[1:]))
-    h = (h - 3.0 * (big_n + 1)) / ties
-    return _num(h), _num(chi2_sf(h, len(groups) - 1))
+        var_between=vb, var_within=vw, share_between=share, differ=differ, advice=advice, kruskal_ranks=ranks)
 
 
 def _num(x) -> float | None:
