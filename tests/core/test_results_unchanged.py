@@ -1,0 +1,69 @@
+"""The faster paths give the results of the plain computations they replace.
+
+References are the definitions computed the obvious way with numpy (row reductions, per-stream
+means and SDs) and scipy.stats (f_oneway, kruskal), on the bundled demo and on seeded data.
+"""
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pytest
+from scipy import stats
+
+from tests.conftest import make_dataset
+from workbench.core.analysis import analyse, comparison_of
+from workbench.core.charts.variables import subgroup_stats
+from workbench.core.data.reader import load
+from workbench.core.model import Exclusion, Settings
+
+DEMO = Path(__file__).resolve().parents[2] / "demo_data" / "filler_line3.csv"
+
+
+@pytest.mark.parametrize("k", [1, 2, 3, 5, 7, 8, 12])
+def test_subgroup_stats_are_numpys_row_reductions_bit_for_bit(k):
+    # [definition] mean, sample SD (ddof=1) and range of each row, as numpy computes them
+    v = np.round(np.random.default_rng(k).normal(500, 0.5, (3001, k)), 2)
+    s = subgroup_stats(v)
+    np.testing.assert_array_equal(s.mean, v.mean(axis=1))
+    if k > 1:
+        np.testing.assert_array_equal(s.sd, v.std(axis=1, ddof=1))
+        np.testing.assert_array_equal(s.range, v.max(axis=1) - v.min(axis=1))
+    else:
+        assert np.isnan(s.sd).all() and np.isnan(s.range).all()
+    assert (s.n == k).all()
+
+
+def _plain_comparison(values, excluded_cells):
+    groups = [col[~ex & ~np.isnan(col)] for col, ex in zip(values.T, excluded_cells.T)]
+    return groups, [g.mean() for g in groups], [g.std(ddof=1) for g in groups]
+
+
+@pytest.mark.parametrize("exclusions", [(), ("2026-03-03 08:00",), ("2026-03-02 12:30:H2",)])
+def test_stream_comparison_on_the_demo_equals_the_definitions(exclusions):
+    ds = load(DEMO)
+    excl = [Exclusion.parse(e, ds.streams) for e in exclusions]
+    a = analyse(ds, Settings(), excl)
+    cmp_ = comparison_of(a)
+    groups, means, sds = _plain_comparison(ds.values, np.asarray(a.excluded_cells))
+    np.testing.assert_allclose(cmp_.means, means, rtol=1e-12)
+    np.testing.assert_allclose(cmp_.sds, sds, rtol=1e-12)
+    assert cmp_.counts == tuple(g.size for g in groups)
+    # [printed] one-way ANOVA and Kruskal & Wallis (1952), as scipy.stats computes them
+    assert cmp_.anova_f == pytest.approx(stats.f_oneway(*groups).statistic, rel=1e-12)
+    assert cmp_.kruskal_h == pytest.approx(stats.kruskal(*groups).statistic, rel=1e-10)
+    assert "counted" in cmp_.kruskal_ranks  # the demo's readings have a resolution
+
+
+@pytest.mark.parametrize("seed", [1, 2, 3])
+def test_stream_comparison_on_seeded_data_with_missing_cells(seed):
+    rng = np.random.default_rng(seed)
+    v = rng.normal(10, 1, (400, 4))  # full precision: the ranks come from the sort
+    v[rng.random(v.shape) < 0.03] = np.nan
+    a = analyse(make_dataset(v), Settings(), [Exclusion("7"), Exclusion("9", "S3")])
+    cmp_ = comparison_of(a)
+    groups, means, sds = _plain_comparison(v, np.asarray(a.excluded_cells))
+    np.testing.assert_allclose(cmp_.means, means, rtol=1e-12)
+    np.testing.assert_allclose(cmp_.sds, sds, rtol=1e-12)
+    assert cmp_.kruskal_h == pytest.approx(stats.kruskal(*groups).statistic, rel=1e-10)
+    assert "sort" in cmp_.kruskal_ranks
