@@ -198,6 +198,8 @@ def build_parser() -> argparse.ArgumentParser:
                        "append, keypress, case")
         b.add_argument("--quick", action="store_true", help="skip the slow parts (processes, TUI, case growth)")
         b.set_defaults(func=cmd_perf, old_name=name == "bench")
+    # keep the old name out of the command list (argparse lists every subparser that has a help entry)
+    sub._choices_actions = [a for a in sub._choices_actions if a.dest != "bench"]
 
     try:
         from workbench import cli_case

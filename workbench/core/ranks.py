@@ -19,7 +19,6 @@ from fractions import Fraction
 
 import numpy as np
 
-from workbench.core.tails import chi2_sf
 
 MAX_DECIMALS = 6
 """Resolutions tried: 1, 0.1, ... 10⁻⁶."""
@@ -110,3 +109,9 @@ def _sorted_ranks(groups: list[np.ndarray], big_n: int) -> tuple[list[int], floa
 def _num(x) -> float | None:
     x = float(x)
     return x if np.isfinite(x) else None
+
+
+def chi2_sf(x: float, df: float) -> float:
+    """Upper tail of the chi-square distribution (``scipy.special.chdtrc``, imported where it is needed)."""
+    from scipy.special import chdtrc
+    return float(chdtrc(df, x))

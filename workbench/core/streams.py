@@ -6,8 +6,9 @@ subgroup range that disappears when that stream's reading is left out: (R − R�
 zero for a stream inside the range and large for a reading that alone sets an extreme.
 
 For the whole dataset the streams are compared with a one-way ANOVA and the Kruskal–Wallis
-test (computed here with numpy and the F and chi-square tails of :mod:`workbench.core.tails`, so a
-report does not pay for importing scipy; the tests check both against scipy.stats), and the variance is split into between-stream and within-stream
+test (statistics computed here with numpy, tail probabilities from ``scipy.special.fdtrc`` and
+``chdtrc`` imported where the comparison is computed; the tests check both against scipy.stats), and
+the variance is split into between-stream and within-stream
 components (one-way random-effects model, method of moments).
 
 References
@@ -21,7 +22,6 @@ from __future__ import annotations
 
 import numpy as np
 from workbench.core.ranks import kruskal_wallis, kruskal_with_method  # noqa: F401 (kruskal_wallis: re-exported)
-from workbench.core.tails import f_sf
 
 from workbench.core.model import Analysis, Breakdown, StreamComparison, StreamRow
 
@@ -90,7 +90,7 @@ def compare(a: Analysis) -> StreamComparison | None:
         msb, msw = ssb / (k - 1), ssw / (big_n - k)
         with np.errstate(all="ignore"):
             f = _num(msb / msw) if msw > 0 else None
-            p = _num(f_sf(f, k - 1, big_n - k)) if f is not None else None
+            p = _num(_f_sf(f, k - 1, big_n - k)) if f is not None else None
             h, hp, ranks = kruskal_with_method([groups[j] for j in valid])
         n0 = (big_n - (sizes ** 2).sum() / big_n) / (k - 1)
         vb, vw = max(0.0, (msb - msw) / n0), float(msw)
@@ -233,3 +233,10 @@ def _count_breakdown(a: Analysis, position: int, label: str) -> Breakdown:
         return Breakdown(position, label, tuple(rows), sub_rate, float("nan"), top.stream, verdict)
     return Breakdown(position, label, tuple(rows), sub_rate, float("nan"), None,
                      f"no single stream stands out (largest: {top.stream} at {top.z:+.1f} standard errors)")
+
+
+def _f_sf(f: float, dfn: float, dfd: float) -> float:
+    """Upper tail of the F distribution (``scipy.special.fdtrc``, imported here so that a view which
+    never shows the stream comparison never pays for loading it)."""
+    from scipy.special import fdtrc
+    return float(fdtrc(dfn, dfd, f))

@@ -1,6 +1,7 @@
 """Chart constants against the published table and the closed forms."""
 import math
 
+import numpy as np
 import pytest
 
 from workbench.core.charts import constants as K
@@ -83,3 +84,13 @@ def test_bad_n_is_refused():
     for n in (0, 1, 1.5, K.MAX_N + 1):
         with pytest.raises(WorkbenchError):
             K.c4(n)
+
+
+def test_normal_distribution_function_of_the_quadrature_equals_scipy():
+    """Φ and log Φ at the quadrature nodes (|x| ≤ 9.5) agree with scipy.special.ndtr / log_ndtr
+    [reference library]. Kills a dropped 1/2, a sign of the argument or a missing √2."""
+    from scipy import special
+    from workbench.core.charts.constants import log_ndtr, ndtr
+    x = np.linspace(-9.5, 9.5, 401)
+    assert np.allclose(ndtr(x), special.ndtr(x), rtol=1e-13, atol=0)
+    assert np.allclose(log_ndtr(x), special.log_ndtr(x), rtol=1e-12, atol=1e-15)
