@@ -27,13 +27,19 @@ def fail(msg: str) -> NoReturn:
     raise SystemExit(2)
 
 
-def _parse_exclusions(items: Sequence[str], streams: tuple[str, ...]) -> list[tuple[Exclusion, str]]:
+def _parse_exclusions(items: Sequence[str], ds) -> list[tuple[Exclusion, str]]:
+    from workbench.core.case.ranges import parse_range
     out = []
     for item in items or ():
         target, sep, reason = item.partition("=")
         if not sep or not reason.strip():
-            raise WorkbenchError(f"--exclude {item!r}: give SUBGROUP[:STREAM]=REASON (a reason is required)")
-        out.append((Exclusion.parse(target, streams), reason.strip()))
+            raise WorkbenchError(f"--exclude {item!r}: give SUBGROUP[:STREAM]=REASON or FIRST..LAST=REASON "
+                                 "(a reason is required)")
+        span = parse_range(ds, target.strip())
+        if span is not None:
+            out += [(Exclusion(str(label)), reason.strip()) for label in ds.labels[span[0]:span[1] + 1]]
+        else:
+            out.append((Exclusion.parse(target, ds.streams), reason.strip()))
     return out
 
 
@@ -50,6 +56,7 @@ def cmd_report(args: argparse.Namespace) -> int:
     inputs = _report_inputs(args.path)
     if args.output:  # refused before anything is read or computed
         check_output(args.output, inputs)
+    state_of = lambda key: "open"  # noqa: E731 — a data file has no marks
     if is_case_path(args.path):
         from workbench.core.case.casefile import Case
         from workbench.core.case import review as case_report
@@ -66,6 +73,7 @@ def cmd_report(args: argparse.Namespace) -> int:
         ds = case.load_dataset()
         a = case.analyse(ds)
         states = case.state.signal_states
+        state_of = case.state.signal_state
         fmt_name = args.format
         text = render(a, fmt_name, states, args.points)
         if fmt_name == "json":
@@ -82,9 +90,12 @@ def cmd_report(args: argparse.Namespace) -> int:
         from workbench.core.data.reader import load
         ds = load(args.path, layout_request_from_args(args))
         settings = settings_from_args(args, _default_settings_for(args.path))
-        excl = [e for e, _ in _parse_exclusions(args.exclude, ds.streams)]
+        excl = [e for e, _ in _parse_exclusions(args.exclude, ds)]
         a = analyse(ds, settings, excl)
         text = render(a, args.format, with_values=args.points)
+    if args.summary or args.by_stream:
+        from workbench.core.report_more import add_sections
+        text = add_sections(text, a, args.format, state_of, args.summary, args.by_stream)
     out = text + (("\n" + extra) if extra else "")
     _emit(args, out, inputs)
     if args.fail_on_signal and open_signals(a, states):
@@ -174,7 +185,13 @@ def build_parser() -> argparse.ArgumentParser:
     add_data_options(r)
     add_setup_options(r)
     r.add_argument("--exclude", action="append", metavar="SUBGROUP[:STREAM]=REASON",
-                   help="leave a subgroup or one reading out of the limits (repeatable)")
+                   help="leave a subgroup or one reading out of the limits (repeatable); FIRST..LAST=REASON "
+                        "leaves out a range (labels or 1-based positions, inclusive)")
+    r.add_argument("--summary", action="store_true",
+                   help="add the signals summary: per chart and rule, the firing points against the number "
+                        "expected by chance on in-control data")
+    r.add_argument("--by-stream", action="store_true",
+                   help="add each stream charted on its own (its own individuals chart and signals)")
     r.add_argument("--format", choices=("text", "markdown", "json"), default="text")
     r.add_argument("-o", "--output", metavar="FILE", help="write the report to FILE")
     r.add_argument("--points", action="store_true",
