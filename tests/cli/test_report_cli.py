@@ -108,7 +108,12 @@ def test_module_entry_point_no_traceback(tmp_path):
     bad.write_bytes(b"t,x\n1,\xff\xfe\x00\n")
     r = subprocess.run([sys.executable, "-m", "workbench", "report", str(bad)], capture_output=True, text=True,
                        timeout=120)
-    assert r.returncode in (0, 2) and "Traceback" not in r.stderr
+    # bad input: exit 2 with one line naming the file and where (the project's rule for bad input);
+    # the NUL is byte 8 of the file (0-based), on line 2 [definition: offsets counted from 0]
+    assert r.returncode == 2 and "Traceback" not in r.stderr
+    assert r.stderr.strip().splitlines() == [f"workbench: error: {bad}: NUL byte at offset 8 (line 2); "
+                                             "not a text file (UTF-16 is not supported)"]
+    assert r.stdout == ""
 
 
 def test_points_option_adds_labels_and_values(capsys):

@@ -2,6 +2,8 @@
 from pathlib import Path
 
 import numpy as np
+import pytest
+from scipy import stats
 
 from workbench.core.analysis import analyse, capability_of
 from workbench.core.capability.assess import assess
@@ -28,7 +30,30 @@ def test_normal_data_keep_their_verdict():
     assert cap.method == "normal" and "meets the required" in cap.verdict
 
 
-def test_excluding_the_mis_keyed_reading_changes_the_model_choice():
+def test_excluding_the_mis_keyed_reading_removes_the_only_reading_above_the_usl():
+    """Mutation killed: a single excluded reading dropping its whole subgroup from the capability
+    readings (model.Analysis.readings with ``excluded_cells.any(axis=1)``): 858 readings instead of 863,
+    still no reading above the USL, so the former check (observed ppm 0 after the exclusion) passed.
+
+    Observed fallout = readings strictly above the USL / readings used [definition]; the demo's one
+    reading above 503 is the mis-keyed 509.6 (demo_data/README.md, invented scenario).
+    """
     ds = load(DEMO)
+    readings = ds.values[np.isfinite(ds.values)]
+    assert readings.size == 864 and np.count_nonzero(readings > SPEC.usl) == 1
+    before = capability_of(analyse(ds, Settings(spec=SPEC)))
+    assert before.n == 864
+    assert before.ppm_observed.above == pytest.approx(1e6 / 864, rel=1e-12)
+    assert before.ppm_observed.below == 0.0
     a = analyse(ds, Settings(spec=SPEC), [Exclusion("2026-03-03 15:30", "H2")])
-    assert capability_of(a).ppm_observed.total == 0  # the 509.6 reading was the only one above the USL
+    after = capability_of(a)
+    assert after.n == 863
+    assert (after.ppm_observed.above, after.ppm_observed.total) == (0.0, 0.0)
+    # the capability works on the 863 readings left: their Anderson-Darling A² by its definition,
+    # A² = -n - (1/n) Σ (2i - 1)[ln Φ(zᵢ) + ln(1 - Φ(z₍ₙ₊₁₋ᵢ₎))], z from the mean and the SD (n - 1)
+    # [definition: Stephens (1974), as used by scipy.stats.anderson]
+    kept = np.sort(readings[readings != 509.6])
+    z = (kept - kept.mean()) / kept.std(ddof=1)
+    i = np.arange(1, kept.size + 1)
+    a2 = -kept.size - np.sum((2 * i - 1) * (stats.norm.logcdf(z) + stats.norm.logsf(z[::-1]))) / kept.size
+    assert after.normality.ad_statistic == pytest.approx(a2, rel=1e-9)
