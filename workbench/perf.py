@@ -9,7 +9,6 @@ anything.
 """
 from __future__ import annotations
 
-import os
 import sys
 import tempfile
 from dataclasses import dataclass
@@ -106,7 +105,7 @@ def run_perf(readings: int = 1_000_000, streams: int = 5, quick: bool = False, o
 
 
 def _report_cmd(py: str, path: Path) -> list[str]:
-    return [py, "-m", "workbench", "report", str(path), "--format", "json", "-o", os.devnull]
+    return [py, "-m", "workbench", "report", str(path), "--format", "json"]  # stdout: /dev/null
 
 
 def _report(board: Board, path: Path, readings: int, py: str) -> None:

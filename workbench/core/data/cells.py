@@ -17,6 +17,11 @@ from typing import Protocol
 import numpy as np
 import pandas as pd
 
+from workbench.core.data import arrow
+
+FAST = True
+"""Use the pyarrow conversions of :mod:`workbench.core.data.arrow` where they apply (tests turn them
+off to compare with the general conversions)."""
 
 
 class Table(Protocol):
@@ -86,6 +91,9 @@ def as_text(table: Table, column: str) -> np.ndarray:
         else:
             out = s.astype(str).to_numpy(dtype=str)
         return np.where(np.isnan(v), "", out)
+    fast = arrow.text(s) if FAST else None
+    if fast is not None:
+        return _strip(fast)
     arr = s.to_numpy(dtype=object)
     out = _str_array(arr)
     nan = np.flatnonzero(out == "nan")  # a NaN cell, or the text "nan"
@@ -203,6 +211,10 @@ def as_times(table: Table, column: str) -> Times | None:
         if len(head) and bool(pd.to_numeric(head, errors="coerce").notna().all()):
             return None
         iso = len(head) and all(_ISO_TIME.match(x) for x in head.tolist())
+        fast = arrow.iso_times(s, head.tolist()) if iso and FAST else None
+        if fast is not None:
+            nat = np.isnat(fast)
+            return Times(fast, np.zeros(len(fast), bool), nat)
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             t = pd.to_datetime(s, errors="coerce", format="ISO8601" if iso else None)
