@@ -67,3 +67,23 @@ def test_stream_comparison_on_seeded_data_with_missing_cells(seed):
     np.testing.assert_allclose(cmp_.sds, sds, rtol=1e-12)
     assert cmp_.kruskal_h == pytest.approx(stats.kruskal(*groups).statistic, rel=1e-10)
     assert "sort" in cmp_.kruskal_ranks
+
+
+def test_signal_list_of_the_report_is_signal_json_of_each_signal():
+    # [definition] the JSON report lists signal_json(a, s) for every signal, in the table's order
+    from workbench.core.analysis import freeze
+    from workbench.core.report import signal_json, signals_json
+    ds = load(DEMO)
+    a = analyse(ds, Settings(rules="nelson"))
+    assert len(a.signals) > 3
+    states = {a.signals[0].key: "explained", a.signals[2].key: "no-cause-found"}
+    for st in (None, states):
+        assert signals_json(a, st) == [signal_json(a, s, st) for s in a.signals]
+    rng = np.random.default_rng(8)
+    v = np.round(rng.normal(10, 1, (3000, 5)), 1)
+    v[2500:2510] += 1.5
+    first = analyse(make_dataset(v[:2000]), Settings(rules="nelson"))
+    later = analyse(make_dataset(v), Settings(rules="nelson"), frozen=freeze(first))
+    got = signals_json(later, {})
+    assert got == [signal_json(later, s, {}) for s in later.signals]
+    assert {d["phase"] for d in got} == {1, 2} and all(d["state"] == "open" for d in got)

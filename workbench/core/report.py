@@ -66,6 +66,22 @@ def signal_json(a: Analysis, s, states: dict | None = None) -> dict[str, Any]:
     return out
 
 
+def signals_json(a: Analysis, states: dict | None = None) -> list[dict[str, Any]]:
+    """``signal_json`` of every signal, built from the signal table's arrays (the same dicts, faster)."""
+    records = getattr(a.signals, "records", None)
+    if records is None:
+        return [signal_json(a, s, states) for s in a.signals]
+    out = records()
+    start = a.phase2_start
+    for d in out:
+        if states is not None:
+            st = states.get(d["key"])
+            d["state"] = getattr(st, "state", st) or "open"
+        if start is not None:
+            d["phase"] = 2 if d["last"] >= start else 1
+    return out
+
+
 def report_json(a: Analysis, states: dict | None = None, with_values: bool = False) -> dict[str, Any]:
     """The JSON report (schema ``workbench.report/1``); contains no NaN.
 
@@ -85,7 +101,7 @@ def report_json(a: Analysis, states: dict | None = None, with_values: bool = Fal
         "rules": {c.name: list(c.rules) for c in a.charts},
         "charts": [chart_json(c, with_values) for c in a.charts],
         "flags": {c.name: {rid: pos.tolist() for rid, pos in c.flags.items()} for c in a.charts},
-        "signals": [signal_json(a, s, states) for s in a.signals],
+        "signals": signals_json(a, states),
         "excluded": [{"subgroup": e.subgroup, "stream": e.stream, "position": ds.index_of(e.subgroup)}
                      for e in a.exclusions],
         "phase2_start": a.phase2_start,
