@@ -39,7 +39,7 @@ def _parse_exclusions(items: Sequence[str], ds) -> list[tuple[Exclusion, str]]:
         if span is not None:
             out += [(Exclusion(str(label)), reason.strip()) for label in ds.labels[span[0]:span[1] + 1]]
         else:
-            out.append((Exclusion.parse(target, ds.streams), reason.strip()))
+            out.append((ds.target(target), reason.strip()))
     return out
 
 

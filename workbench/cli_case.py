@@ -11,7 +11,7 @@ from typing import Any
 
 from workbench.core.case.events import MARKS, Event, describe_trail, printable
 from workbench.core.model import Exclusion, WorkbenchError
-from workbench.core.report import fmt
+from workbench.core.text import change_texts, fmt
 
 
 def _notices(case: Any) -> None:
@@ -35,7 +35,7 @@ def _limit_lines(ev: Event) -> list[str]:
     out = []
     for name in dict.fromkeys([*before, *after]):
         a, b = before.get(name) or {}, after.get(name) or {}
-        parts = [f"{label} {fmt(a.get(k))} → {fmt(b.get(k))}" for k, label in
+        parts = [f"{label} {' → '.join(change_texts(a.get(k), b.get(k)))}" for k, label in
                  (("center", "centre"), ("lcl", "LCL"), ("ucl", "UCL")) if a.get(k) != b.get(k)]
         if parts:
             out.append(f"  {name}: " + ", ".join(parts))
@@ -76,7 +76,7 @@ def cmd_exclude(args: argparse.Namespace) -> int:
                 raise WorkbenchError("--signal names one signal; a range answers every signal in it")
             exclude_range(case, ds, *span, args.reason, args.cause)
         else:
-            case.record_exclusion(ds, Exclusion.parse(args.target, ds.streams), args.reason, args.cause, args.signal)
+            case.record_exclusion(ds, ds.target(args.target), args.reason, args.cause, args.signal)
         return _done(case)
 
 
@@ -88,7 +88,7 @@ def cmd_restore(args: argparse.Namespace) -> int:
         if span is not None:
             restore_range(case, ds, *span, args.reason)
         else:
-            case.record_restore(ds, Exclusion.parse(args.target, ds.streams), args.reason)
+            case.record_restore(ds, ds.target(args.target), args.reason)
         return _done(case)
 
 

@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import json
+import re
 import subprocess
 import sys
 
@@ -53,12 +54,14 @@ def test_a_session_of_actions_is_recorded_in_the_trail(work, capsys):
     assert code == 0, err
     assert "event 2: excluded subgroup 2: gauge dropped; cause measurement" in out
     # leaving out 94.8 raises the centre from the mean of 20 readings to the mean of the other 19 [definition]
-    assert f"centre {sum(READINGS) / 20:.4f}".rstrip("0") in out
-    assert f"→ {(sum(READINGS) - 94.8) / 19:.4f}".rstrip("0") in out
+    # shown to 4 significant figures (the one formatting rule): within half a unit of the last figure
+    before, after = re.search(r"centre (\S+) → (\S+),", out).groups()
+    assert abs(float(before) - sum(READINGS) / 20) <= 0.005 + 1e-9
+    assert abs(float(after) - (sum(READINGS) - 94.8) / 19) <= 0.005 + 1e-9
     assert run(capsys, "case", "note", CASE, "shift change")[0] == 0
     assert run(capsys, "case", "note", CASE, "5", "looked at the part")[0] == 0
     code, out, _ = run(capsys, "case", "set", CASE, "--rules", "nelson")
-    assert code == 0 and "rules: None → nelson" in out
+    assert code == 0 and "rules: the chart's default → nelson" in out
     assert run(capsys, "case", "freeze", CASE)[0] == 0
     code, out, _ = run(capsys, "case", "unfreeze", CASE, "--reason", "new gauge")
     assert code == 0 and "limits unfrozen: new gauge" in out
@@ -152,3 +155,15 @@ def test_the_command_runs_as_a_program(work):
     done = subprocess.run([sys.executable, "-m", "workbench", "verify", CASE], capture_output=True, text=True,
                           cwd=work)
     assert done.returncode == 0 and "intact" in done.stdout
+
+
+def test_an_unknown_stream_is_named(tmp_path, monkeypatch, capsys):
+    # "18:S9" on data with streams S1..S4: the error names the stream, not a subgroup "18:S9"
+    monkeypatch.chdir(tmp_path)
+    rows = "".join(f"{i},{10 + i % 3},{11 - i % 2},{10.5},{10 + i % 4 / 2}\n" for i in range(1, 26))
+    (tmp_path / "caps.csv").write_text("sample,S1,S2,S3,S4\n" + rows, encoding="utf-8")
+    assert run(capsys, "case", "new", "caps.csv")[0] == 0
+    code, _out, err = run(capsys, "case", "exclude", "casefiles/caps.case.json", "18:S9", "--reason", "x")
+    assert code == 2 and "no stream named 'S9'" in err and "S1, S2, S3, S4" in err
+    code, _out, err = run(capsys, "report", "caps.csv", "--exclude", "18:S9=x")
+    assert code == 2 and "no stream named 'S9'" in err

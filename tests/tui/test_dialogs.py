@@ -24,6 +24,9 @@ async def test_exclude_dialog_refuses_an_empty_reason(in_tmp, opened):
         await pilot.click("#confirm")
         await settle(pilot)
         assert app.screen is dialog
+        await pilot.press("g")  # a reason is being typed: the hint that one is required goes
+        await settle(pilot)
+        assert "A reason is required" not in screen_text(app)
         await pilot.press("escape")
         await settle(pilot)
         assert isinstance(app.screen, BenchScreen)

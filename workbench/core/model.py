@@ -186,6 +186,18 @@ class Dataset:
             raise WorkbenchError(f"no subgroup labelled {label!r} in {self.path}")
         return idx
 
+    def target(self, text: str) -> "Exclusion":
+        """``SUBGROUP`` or ``SUBGROUP:STREAM`` checked against these data; an unknown part is named
+        (``18:S9`` says that there is no stream S9, not that there is no subgroup ``18:S9``)."""
+        ex = Exclusion.parse(text, self.streams)
+        if ex.stream is None and self._label_index().get(ex.subgroup) is None and ":" in ex.subgroup:
+            head, _, tail = ex.subgroup.rpartition(":")
+            if self._label_index().get(head) is not None:
+                raise WorkbenchError(f"no stream named {tail!r} in {self.path} (subgroup {head!r} has the streams "
+                                     f"{', '.join(self.streams)})")
+        self.index_of(ex.subgroup)
+        return ex
+
     def stream_index(self, stream: str) -> int:
         try:
             return self.streams.index(str(stream))

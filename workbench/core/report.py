@@ -12,7 +12,7 @@ import numpy as np
 
 from workbench.core.analysis import comparison_of, sigma_label
 from workbench.core.model import Analysis, ChartResult, WorkbenchError
-from workbench.core.text import fmt, md, printable
+from workbench.core.text import fmt, md, nums, printable
 
 SCHEMA = "workbench.report/1"
 MAX_TEXT_SIGNALS = 40
@@ -141,10 +141,18 @@ def _limits_lines(a: Analysis) -> list[str]:
     snap = limits_snapshot(a)["charts"]
     lines = []
     for c in a.charts:
-        s = snap[c.name]
-        lines.append(f"  {c.name:<6} {c.title:<30} centre {fmt(s['center'])}   LCL {fmt(s['lcl'])}   "
-                     f"UCL {fmt(s['ucl'])}")
+        centre, lcl, ucl = limit_texts(snap[c.name])
+        lines.append(f"  {c.name:<6} {c.title:<30} centre {centre}   LCL {lcl}   UCL {ucl}")
     return lines
+
+
+def limit_texts(lim: dict) -> tuple[str, str, str]:
+    """Centre, LCL and UCL of one chart's limits snapshot by the one formatting rule (constant limits
+    get as many figures as it takes to tell them apart; varying ones read ``min … max (varies)``)."""
+    vals = [lim.get(k) for k in ("center", "lcl", "ucl")]
+    if any(isinstance(v, dict) for v in vals):
+        return tuple(fmt(v) for v in vals)  # type: ignore[return-value]
+    return tuple(nums(vals))  # type: ignore[return-value]
 
 
 def describe_mapping(a: Analysis) -> str:
@@ -195,7 +203,7 @@ def report_text(a: Analysis, states: dict | None = None, width: int = 100) -> st
     cmp_ = comparison_of(a)
     if cmp_ is not None:
         L.append("")
-        L.append("streams   " + "  ".join(f"{_p(s)} {fmt(m)}±{fmt(sd, 3)}" for s, m, sd in
+        L.append("streams   " + "  ".join(f"{_p(s)} {fmt(m)}±{fmt(sd)}" for s, m, sd in
                                           zip(cmp_.streams[:8], cmp_.means, cmp_.sds)))
         L.append(f"          ANOVA F {fmt(cmp_.anova_f)} p {fmt(cmp_.anova_p)}; Kruskal–Wallis H "
                  f"{fmt(cmp_.kruskal_h)} p {fmt(cmp_.kruskal_p)}")
@@ -237,8 +245,8 @@ def report_markdown(a: Analysis, states: dict | None = None) -> str:
     from workbench.core.analysis import limits_snapshot
     snap = limits_snapshot(a)["charts"]
     for c in a.charts:
-        s = snap[c.name]
-        L.append(f"| {c.name} — {c.title} | {fmt(s['center'])} | {fmt(s['lcl'])} | {fmt(s['ucl'])} | "
+        centre, lcl, ucl = limit_texts(snap[c.name])
+        L.append(f"| {c.name} — {c.title} | {centre} | {lcl} | {ucl} | "
                  f"{', '.join(c.rules)} |")
     if a.phase2_start is not None:
         L += ["", "## Phase II", "",

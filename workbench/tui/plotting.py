@@ -124,33 +124,24 @@ def fit_label(label: str, room: int) -> str:
 
 
 def short(v: float) -> str:
-    """A limit value for an axis label (about five significant figures)."""
-    if v is None or not np.isfinite(v):
-        return "—"
-    a = abs(v)
-    if a >= 1e5 or (a < 1e-3 and a != 0):
-        return f"{v:.3g}"
-    return f"{v:.5g}"
-
-
-def _limit_label(word: str, lim) -> str:
-    if lim is None:
-        return ""
-    if isinstance(lim, float):
-        return f"{word} {short(lim)}"
-    return f"{word}~{short(float(lim[1][-1]))}"
+    """A value for an axis or a label: the one formatting rule (:func:`workbench.core.text.num`)."""
+    from workbench.core.text import num
+    return num(v)
 
 
 def axis_labels(data: ChartData, win: Window, cols: int) -> list[tuple[float, str]]:
-    """(value, label) for the centre line and limits of one chart in one window."""
-    out = []
+    """(value, label) for the centre line and limits of one chart in one window; the three values
+    get as many significant figures as it takes to tell them apart (the one formatting rule)."""
+    from workbench.core.text import nums
+    found = []
     for word, arr, kind in (("UCL", data.ucl, "max"), ("CL", data.center, "first"), ("LCL", data.lcl, "min")):
         lim = limit_trace(arr, win, cols, kind)
         if lim is None:
             continue
         value = lim if isinstance(lim, float) else float(lim[1][-1])
-        out.append((value, _limit_label(word, lim)))
-    return out
+        found.append((word, value, "" if isinstance(lim, float) else "~"))
+    texts = nums(v for _, v, _ in found)
+    return [(value, f"{word}{'~' if sep else ' '}{text}") for (word, value, sep), text in zip(found, texts)]
 
 
 def label_width(charts: list[ChartData], win: Window, cols: int) -> int:
@@ -275,8 +266,10 @@ def legend_text() -> Text:
     t = Text(no_wrap=True, overflow="ellipsis")
     for i, (words, cls) in enumerate(LEGEND):
         if i:
-            t.append("   ")
+            t.append("  ")
         t.append(GLYPH[cls] + " ", style=f"bold {rgb(COLOUR[cls])}")
         t.append(words)
-    t.append("   │ cursor", style="reverse")
+    t.append("  ")
+    t.append(" ", style="reverse")  # drawn as the cursor is: a highlighted column
+    t.append(" cursor column")
     return t

@@ -13,7 +13,7 @@ import numpy as np
 
 from workbench.core.case.events import printable
 from workbench.core.model import Analysis, Signal
-from workbench.core.report import fmt
+from workbench.core.text import change_texts, fmt
 
 NORMAL, OPEN, REVIEWED, EXCLUDED = 0, 1, 2, 3
 """Point classes drawn with their own glyphs: in control, open signal, explained or no cause found,
@@ -51,6 +51,10 @@ class SignalRow:
     """Subgroups from first to last (0 for a signal that no longer exists)."""
     state: str
     """open | explained | no-cause-found | excluded."""
+    status: str = ""
+    """The state in words (``explained 1 of 4 firing points — 3 new`` for a run that grew); empty: ``state``."""
+    short: str = ""
+    """The state for the list's column (``open · 3 new``); empty: ``state`` in words."""
 
 
 @dataclass(frozen=True, eq=False)
@@ -186,12 +190,14 @@ def limits_change(before: dict, after: dict) -> list[str]:
             vb, va = lb.get(k), la.get(k)
             if vb is None and va is None:
                 continue
-            unchanged = fmt(vb) == fmt(va)
+            unchanged = vb == va
             same = same and unchanged
-            parts.append(f"{word} {fmt(vb)} → {fmt(va)}" + (" (same)" if unchanged else ""))
+            tb, ta = change_texts(vb, va)
+            parts.append(f"{word} {tb} → {ta}" + (" (same)" if unchanged else ""))
         moved = moved or not same
         out.append(f"{name}: " + ("limits unchanged" if same else ", ".join(parts)))
-    if fmt(before.get("sigma")) != fmt(after.get("sigma")):
-        out.append(f"sigma: {fmt(before.get('sigma'))} → {fmt(after.get('sigma'))}")
+    if before.get("sigma") != after.get("sigma"):
+        tb, ta = change_texts(before.get("sigma"), after.get("sigma"))
+        out.append(f"sigma: {tb} → {ta}")
         moved = True
     return out if moved else ["the limits did not change"]

@@ -121,14 +121,16 @@ def test_verdicts_against_the_required_minimum_use_the_lower_bound():
     # Cpk 1.5 with n 200: the lower end of the 95% Bissell interval is above 1.33
     cap = assess(readings_with(6.0, 4 / 3, n=200), 4 / 3, "rbar", spec)
     assert cap.meets_required and cap.bound_meets_required
-    assert cap.verdict.startswith("Cpk 1.50 meets the required 1.33, and the lower end of its 95% confidence interval")
-    assert "Cpk 1.50 reaches the common 1.33 but not 1.67." in cap.common_practice and "Montgomery" in cap.common_practice
+    # figures by the one formatting rule: 4 significant figures [common practice]
+    assert cap.verdict.startswith("Cpk 1.500 meets the required 1.330, and the lower end of its 95% confidence "
+                                  "interval")
+    assert "Cpk 1.500 reaches the common 1.33 but not 1.67." in cap.common_practice and "Montgomery" in cap.common_practice
     # Cpk 1.40 with n 30: meets, but the lower bound does not
     cap = assess(readings_with(6.0, 6 / 4.2, n=30), 6 / 4.2, "rbar", spec)
     assert cap.meets_required and cap.bound_meets_required is False and "does not" in cap.verdict
     # the customer's 1.67: Cpk 1.50 falls short
     cap = assess(readings_with(6.0, 4 / 3, n=200), 4 / 3, "rbar", Spec(lsl=0.0, usl=12.0, required=1.67))
-    assert cap.meets_required is False and "falls short of the required 1.67" in cap.verdict
+    assert cap.meets_required is False and "falls short of the required 1.670" in cap.verdict
 
 
 def test_lower_bounds_option():

@@ -144,10 +144,55 @@ def _fit_line(cap: Capability) -> str | None:
 
 def _sigma_line(cap: Capability) -> str:
     label = SIGMA_METHOD_LABELS.get(cap.sigma_within_method, cap.sigma_within_method)
-    text = f"\u03c3 within {num(cap.sigma_within, 4)} ({label}), \u03c3 overall {num(cap.sigma_overall, 4)}"
+    text = f"\u03c3 within {num(cap.sigma_within)} ({label}), \u03c3 overall {num(cap.sigma_overall)}"
     if cap.sigma_ratio is not None:
         text += f", ratio {num(cap.sigma_ratio)}"
-    return text + f"; mean {cap.mean:.5g}"
+    return text + f"; mean {num(cap.mean)}"
+
+
+def _columns(rows: list[tuple[str, ...]], right: tuple[bool, ...]) -> list[str]:
+    """Rows laid out in columns as wide as their widest cell (numbers right-aligned)."""
+    widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
+    return ["  ".join(c.rjust(w) if r else c.ljust(w) for c, w, r in zip(row, widths, right)).rstrip()
+            for row in rows]
+
+
+def _index_table(cap: Capability, ci: str, width: int) -> list[str]:
+    """Within and overall indices side by side when both fit, else one block under the other; a block
+    too narrow for its bounds puts each bound on the line under its index.  Numbers are never cut."""
+    rows = _index_rows(cap)
+    blocks = []
+    for side, head in ((0, "within"), (3, "overall")):
+        body = [r[side:side + 3] for r in rows if r[side]]
+        blocks.append([(head, "value", ci)] + body)
+    laid = [_columns(b, (False, True, False)) for b in blocks]
+    if all(max(len(x) for x in lines) <= width for lines in laid):
+        left = max(len(x) for x in laid[0])
+        if left + 2 + max(len(x) for x in laid[1]) <= width:
+            both = [(a.ljust(left) + "  " + b).rstrip() for a, b in zip(laid[0] + [""] * len(laid[1]),
+                                                                         laid[1])]
+            return both
+        return laid[0] + [""] + laid[1]
+    out: list[str] = []
+    for block in blocks:  # too narrow even for one block: the bound under its index
+        for line, cells in zip(_columns([b[:2] for b in block], (False, True)), block):
+            out += [line] + ([f"  {cells[2]}"] if cells[2] else [])
+        out.append("")
+    return out[:-1]
+
+
+def _ppm_table(cap: Capability, width: int) -> list[str]:
+    """The ppm table; when it does not fit, each row's figures go on the line under its name."""
+    rows = [("ppm", "below LSL", "above USL", "total")] + _ppm_rows(cap)
+    lines = _columns(rows, (False, True, True, True))
+    if max(len(x) for x in lines) <= width:
+        return lines
+    out = ["ppm"]
+    for name, below, above, total in rows[1:]:
+        cells = [f"below LSL {below}", f"above USL {above}", f"total {total}"]
+        one = "  " + " · ".join(cells)
+        out += [name] + ([one] if len(one) <= width else [f"  {c}" for c in cells])
+    return out
 
 
 def capability_text(cap: Capability, width: int = 80) -> str:
@@ -157,11 +202,8 @@ def capability_text(cap: Capability, width: int = 80) -> str:
     ci = f"{cap.ci_level * 100:g}% {'lower bound' if cap.ci_kind == 'lower' else 'interval'}"
     out = [TITLE, "\u2500" * min(len(TITLE), width), wrap(_spec_line(cap)),
            wrap(f"Method: {cap.method} \u2014 {cap.method_reason}."), wrap(_sigma_line(cap)), ""]
-    out.append(f"{'within':<6}{'value':>6}  {ci:<17} {'overall':<7}{'value':>6}  {ci}"[:width])
-    for a, va, ba, b, vb, bb in _index_rows(cap):
-        out.append(f"{a:<6}{va:>6}  {ba:<17} {b:<7}{vb:>6}  {bb}".rstrip()[:width])
-    out += ["", f"{'ppm':<18}{'below LSL':>12}{'above USL':>12}{'total':>12}"[:width]]
-    out += [f"{r[0]:<18}{r[1]:>12}{r[2]:>12}{r[3]:>12}"[:width] for r in _ppm_rows(cap)]
+    out += _index_table(cap, ci, width)
+    out += [""] + _ppm_table(cap, width)
     out.append("")
     if cap.normality is not None:
         out.append(wrap(f"Normality: {cap.normality.verdict} p-value: {cap.normality.ad_p_method}."))

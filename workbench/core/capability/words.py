@@ -3,6 +3,8 @@ from __future__ import annotations
 
 import math
 
+from workbench.core import text
+
 SIGMA_RATIO_LIMIT = 1.33
 """sigma_overall / sigma_within above this (or below its inverse) draws a warning."""
 SMALL_N = 30
@@ -21,11 +23,12 @@ BOXCOX_SCALE = ("Box-Cox indices are computed on the transformed scale; for skew
                 "from percentile-method indices of the same readings, while the expected ppm agree more closely.")
 
 
-def num(v: float | None, digits: int = 2) -> str:
-    """A number for prose and tables; None or non-finite values read "n/a" (never "nan")."""
+def num(v: float | None) -> str:
+    """An index, sigma or mean for prose and tables by the one formatting rule
+    (:func:`workbench.core.text.num`); None or non-finite values read "n/a" (never "nan")."""
     if v is None or not math.isfinite(v):
         return "n/a"
-    return f"{v:.{digits}f}"
+    return text.num(v)
 
 
 def ppm(v: float | None) -> str:
@@ -42,11 +45,8 @@ def ppm(v: float | None) -> str:
 
 
 def _pair(a: float, b: float) -> tuple[str, str]:
-    """Format two values so that different values never print alike."""
-    for digits in (2, 3, 4):
-        sa, sb = num(a, digits), num(b, digits)
-        if sa != sb or a == b:
-            return sa, sb
+    """Format two values so that different values never print alike (the one rule, more figures if needed)."""
+    sa, sb = text.nums((a, b))
     return sa, sb
 
 

@@ -206,7 +206,21 @@ def describe_trail(events: Iterable[Event]) -> list[str]:
 def settings_changes(old: Settings, new: Settings) -> list[str]:
     """``name: old → new`` for each setup field that differs (spec fields as ``spec.lsl``)."""
     a, b = _flat(old.as_dict()), _flat(new.as_dict())
-    return [f"{k}: {a.get(k)} → {b.get(k)}" for k in sorted(set(a) | set(b)) if a.get(k) != b.get(k)]
+    return [f"{k}: {setting_words(k, a.get(k))} → {setting_words(k, b.get(k))}" for k in sorted(set(a) | set(b))
+            if a.get(k) != b.get(k)]
+
+
+def setting_words(name: str, value: Any) -> str:
+    """A setup value for people: never ``None`` (an unset value says what applies instead)."""
+    if value is None:
+        if name == "rules":
+            return "the chart's default"
+        if name == "spec":
+            return "no specification"
+        return "not set"
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    return str(value)
 
 
 def _flat(d: dict, prefix: str = "") -> dict[str, Any]:

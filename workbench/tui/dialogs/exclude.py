@@ -76,6 +76,12 @@ class ExcludeDialog(ModalScreen[ExcludeChoice | None]):
         value = self.query_one("#stream", Select).value
         return value if isinstance(value, str) else None
 
+    @on(Input.Changed, "#reason")
+    def typed(self, event: Input.Changed) -> None:
+        """The hint that a reason is required goes as soon as one is typed."""
+        if event.value.strip():
+            self.query_one("#error", Label).update("")
+
     @on(Input.Submitted)
     @on(Button.Pressed, "#confirm")
     def submit(self) -> None:

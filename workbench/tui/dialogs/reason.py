@@ -35,6 +35,12 @@ class ReasonDialog(ModalScreen[str | None]):
     def on_mount(self) -> None:
         self.query_one("#reason", Input).focus()
 
+    @on(Input.Changed, "#reason")
+    def typed(self, event: Input.Changed) -> None:
+        """The hint that a reason is required goes as soon as one is typed."""
+        if event.value.strip():
+            self.query_one("#error", Label).update("")
+
     @on(Input.Submitted)
     @on(Button.Pressed, "#confirm")
     def submit(self) -> None:

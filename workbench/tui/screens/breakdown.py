@@ -13,7 +13,7 @@ from textual.widgets import DataTable, Static
 from textual_plotext import PlotextPlot
 
 from workbench.core.model import Breakdown
-from workbench.core.report import fmt
+from workbench.core.text import fmt, reading
 
 from workbench.tui.messages import Computed
 from workbench.tui.session import Snapshot
@@ -179,11 +179,11 @@ class BreakdownScreen(Screen):
             verdict.update(Text(f"no breakdown: {error}", style="bold"))
             return
         for r in bd.rows:
-            z = fmt(r.z, 2)
+            z = fmt(r.z)
             share = f"{100 * r.range_share:.0f}%" if r.role else ""
             name = Text(safe(r.stream), style="bold" if r.stream == bd.driver else "")
-            dev = fmt(r.deviation, 3)
-            table.add_row(name, fmt(r.reading), ("+" + dev) if np.isfinite(r.deviation) and r.deviation > 0 else dev, fmt(r.stream_mean), fmt(r.stream_sd, 3),
+            dev = fmt(r.deviation)
+            table.add_row(name, reading(r.reading), ("+" + dev) if np.isfinite(r.deviation) and r.deviation > 0 else dev, fmt(r.stream_mean), fmt(r.stream_sd),
                           Text(z, style="bold" if np.isfinite(r.z) and abs(r.z) >= 2 else ""), r.role, share,
                           "yes" if r.excluded else "", key=r.stream)
         if bd.rows:

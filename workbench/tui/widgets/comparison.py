@@ -5,7 +5,7 @@ from rich.text import Text
 
 from workbench.core.analysis import comparison_of
 from workbench.core.model import Analysis
-from workbench.core.report import fmt
+from workbench.core.text import fmt
 
 from workbench.tui.view import safe
 
@@ -25,9 +25,9 @@ def comparison_text(a: Analysis) -> Text:
     width = max([len(safe(s)) for s in cmp_.streams] + [6])
     t.append(f"{'stream':<{width}} {'mean':>10} {'SD':>8} {'n':>7}\n", style="dim underline")
     for s, m, sd, n in zip(cmp_.streams, cmp_.means, cmp_.sds, cmp_.counts):
-        t.append(f"{safe(s):<{width}} {fmt(m):>10} {fmt(sd, 3):>8} {n:>7,}\n")
-    t.append(f"\nANOVA F {fmt(cmp_.anova_f, 3)}, p {fmt(cmp_.anova_p, 4)}\n")
-    t.append(f"Kruskal–Wallis H {fmt(cmp_.kruskal_h, 3)}, p {fmt(cmp_.kruskal_p, 4)}\n")
+        t.append(f"{safe(s):<{width}} {fmt(m):>10} {fmt(sd):>8} {n:>7,}\n")
+    t.append(f"\nANOVA F {fmt(cmp_.anova_f)}, p {fmt(cmp_.anova_p)}\n")
+    t.append(f"Kruskal–Wallis H {fmt(cmp_.kruskal_h)}, p {fmt(cmp_.kruskal_p)}\n")
     if cmp_.share_between is not None:
         t.append(f"between streams: {100 * cmp_.share_between:.0f}% of the variance\n")
     t.append("\n")

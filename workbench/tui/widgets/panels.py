@@ -5,9 +5,9 @@ import numpy as np
 from rich.style import Style
 
 from workbench.core.analysis import sigma_label
-from workbench.core.report import fmt
+from workbench.core.text import num, nums, reading
 
-from workbench.tui.plotting import COLOUR, GLYPH, short
+from workbench.tui.plotting import COLOUR, GLYPH
 from workbench.tui.session import Snapshot
 from workbench.tui.view import NORMAL, OPEN, STATE_WORDS, safe
 from workbench.tui.widgets.lines import BOLD, BOLD_REVERSE, DIM, ITALIC, UNDERLINE_DIM, Lines, LinesPanel
@@ -16,9 +16,14 @@ MAX_GLYPH, MIN_GLYPH = "▴", "▾"
 GLYPH_STYLE = {cls: Style(bold=True, color="rgb({},{},{})".format(*c)) for cls, c in COLOUR.items()}
 
 
-def _limit_at(arr: np.ndarray, p: int) -> str:
-    v = float(arr[p])
-    return short(v) if np.isfinite(v) else "—"
+def chart_value(c, p: int) -> str:
+    """A chart's plotted value at ``p`` by the one rule, with as many figures as it takes to tell it
+    apart from its limits (a mean just beyond its UCL never reads as equal to it)."""
+    return nums((c.values[p], c.lcl[p], c.center[p], c.ucl[p]))[0]
+
+
+def _fits(out_width: int, *texts: str) -> bool:
+    return sum(len(t) for t in texts) <= out_width
 
 
 def subgroup_lines(snap: Snapshot, p: int, width: int = 44) -> Lines:
@@ -26,17 +31,33 @@ def subgroup_lines(snap: Snapshot, p: int, width: int = 44) -> Lines:
     a, ds, st = snap.analysis, snap.dataset, snap.state
     raw = str(ds.labels[p])
     out = Lines()
-    out.add(safe(raw), BOLD).add(f"  ({p + 1:,} of {ds.m:,})", DIM).end()
+    where = f"({p + 1:,} of {ds.m:,})"
+    if _fits(width, safe(raw), "  ", where):
+        out.add(safe(raw), BOLD).add("  " + where, DIM).end()
+    else:  # a long label: the position on its own line, never cut
+        out.add(safe(raw), BOLD).end().add(where, DIM).end()
     if ds.times is not None and ds.layout.time and ds.layout.time != ds.layout.subgroup:
         out.add(f"time {safe(str(ds.times[p])[:19].replace('T', ' '))}", DIM).end()
-    for i, c in enumerate(a.charts):
+    used = 0
+    for c in a.charts:
         code = int(snap.marks.codes[c.name][p])
-        out.add(" · " if i else "", DIM).add(f"{c.name} ")
         if "cusum-" in c.extra:
-            out.add("C⁺ ").add(fmt(c.values[p]), BOLD).add(" C⁻ ").add(fmt(c.extra["cusum-"][p]), BOLD)
+            runs = [(f"{c.name} C⁺ ", None), (chart_value(c, p), BOLD), (" C⁻ ", None),
+                    (num(c.extra["cusum-"][p]), BOLD)]
         else:
-            out.add(fmt(c.values[p]), BOLD)
-        out.add(f" {GLYPH[code]}" if code != NORMAL else "", GLYPH_STYLE[code])
+            runs = [(f"{c.name} ", None), (chart_value(c, p), BOLD)]
+        if code != NORMAL:
+            runs.append((f" {GLYPH[code]}", GLYPH_STYLE[code]))
+        size = sum(len(t) for t, _ in runs)
+        if used and used + 3 + size > width:  # the next chart's value on a line of its own
+            out.end()
+            used = 0
+        if used:
+            out.add(" · ", DIM)
+            used += 3
+        for text, style in runs:
+            out.add(text, style)
+        used += size
     out.end()
     info = st.exclusion_info.get(raw)
     if info is not None:
@@ -47,7 +68,8 @@ def subgroup_lines(snap: Snapshot, p: int, width: int = 44) -> Lines:
     row = snap.marks.row_at(p)
     if row is not None:
         r = snap.marks.rows[row]
-        out.add("signal ", BOLD).add(f"{r.chart} {r.rule} · {STATE_WORDS.get(r.state, r.state)}").end()
+        out.wrapped(f"signal {r.chart} {r.rule} · {r.status or STATE_WORDS.get(r.state, r.state)}", width, BOLD,
+                    "  ")
         out.wrapped(r.words, width, DIM, "  ")
     for note in st.notes:
         if note.target == raw or note.target.startswith(raw + ":"):
@@ -66,13 +88,23 @@ def _readings(out: Lines, snap: Snapshot, p: int, width: int) -> None:
         hi, lo = int(np.nanargmax(vals)), int(np.nanargmin(vals))
     mean = float(np.mean(row[live])) if live.any() else float("nan")
     name_w = min(max([len(safe(s)) for s in ds.streams] + [6]), 16)
-    rng = f"  range {fmt(row[hi] - row[lo])}" if hi is not None else ""
-    out.add(f"{'stream':<{name_w}} {'reading':>10} {'− mean':>9}{rng}", UNDERLINE_DIM).end()
+    devs = [row[j] - mean if live[j] else float("nan") for j in range(ds.k)]
+    dev_text = [("+" if d > 0 else "") + num(d) if np.isfinite(d) else "" for d in devs]
+    read_text = [reading(v) for v in row]
+    rw = max([len(t) for t in read_text] + [7])
+    dw = max([len(t) for t in dev_text] + [6])
+    head = f"{'stream':<{name_w}} {'reading':>{rw}} {'− mean':>{dw}}"
+    rng = f"range {num(row[hi] - row[lo])}" if hi is not None else ""
+    if rng and len(head) + 2 + len(rng) <= width:
+        out.add(head + "  " + rng, UNDERLINE_DIM).end()
+    else:  # the range on its own line rather than cut
+        if rng:
+            out.add(rng, DIM).end()
+        out.add(head, UNDERLINE_DIM).end()
     for j, name in enumerate(ds.streams):
         out.add(f"{safe(name)[:name_w]:<{name_w}} ")
-        out.add(f"{fmt(row[j]):>10}", BOLD if j in (hi, lo) else None)
-        dev = row[j] - mean if live[j] else float("nan")
-        out.add(f" {(('+' if dev > 0 else '') + fmt(dev, 3)) if np.isfinite(dev) else '':>9}")
+        out.add(f"{read_text[j]:>{rw}}", BOLD if j in (hi, lo) else None)
+        out.add(f" {dev_text[j]:>{dw}}")
         if j == hi:
             out.add(f" {MAX_GLYPH} max", BOLD)
         elif j == lo:
@@ -94,17 +126,17 @@ def status_lines(snap: Snapshot, p: int, saving: bool, busy: str = "", width: in
                  lines: int = 2, following: str | None = None) -> Lines:
     """Chart kind, sigma and method, frozen, limits (at subgroup ``p``) | following, counts, case file, saved.
 
-    Two lines (or one when ``lines`` is 1); a piece that does not fit its line is left out, and
-    numbers get fewer digits when the bar is narrow.
+    Two lines (or one when ``lines`` is 1); a piece that does not fit its line is left out whole,
+    never cut.  Numbers follow the one formatting rule; each chart's limits are labelled
+    ``LCL · CL · UCL``.
     """
     a, mk = snap.analysis, snap.marks
     narrow = width < 100
-    num = (lambda v: f"{v:.4g}") if narrow else short  # noqa: E731
     setup: list[list[tuple[str, Style | None]]] = [
         [(f" {a.chart} ", BOLD_REVERSE), (f" σ {num(a.sigma_within)} {sigma_label(a)}", None)]]
     for c in a.charts:
-        lim = (c.lcl[p], c.center[p], c.ucl[p])
-        setup.append([(f"{c.name} ", None), (" · ".join(num(float(v)) if np.isfinite(v) else "—" for v in lim), None)])
+        lcl, cl, ucl = nums((c.lcl[p], c.center[p], c.ucl[p]))
+        setup.append([(f"{c.name} ", BOLD), (f"LCL {lcl} · CL {cl} · UCL {ucl}", None)])
     if a.phase2_start is not None or snap.state.frozen is not None:
         g = [("frozen", BOLD_REVERSE)]
         if a.phase2_start is not None:

@@ -66,14 +66,23 @@ class SignalList(ScrollView, can_focus=False):
             return True
         return False
 
-    def line_parts(self, row: SignalRow, part: int) -> list[tuple[str, Style | None]]:
-        """The segments of line ``part`` (0: what and where, 1: the rule in words) of one row."""
+    def line_parts(self, row: SignalRow, part: int, width: int = 44) -> list[tuple[str, Style | None]]:
+        """The segments of line ``part`` (0: what and where, 1: the rule in words) of one row.
+
+        A run longer than one subgroup reads ``+9 more points`` (``+9 more`` when the list is narrow)."""
         if part == 1:
             return [("    " + row.words, DIM)]
         cls = STATE_CLASS.get(row.state, OPEN)
-        where = row.label + (f" +{row.length - 1}" if row.length > 1 else "")
-        state = STATE_WORDS.get(row.state, row.state)
-        return [(GLYPH[cls] + " ", GLYPH_STYLE[cls]), (f"{row.chart:<5} ", BOLD), (f"{where:<20} ", None),
+        state = row.short or STATE_WORDS.get(row.state, row.state)
+        more = row.length - 1
+        chart = f"{row.chart:<4} "
+        where = f"{row.label:<16} "
+        if more > 0:  # the longest wording that leaves room for the state, never a bare "+9"
+            for words in (f"+{more:,} more point{'s' if more != 1 else ''}", f"+{more:,} more"):
+                where = f"{row.label} {words} "
+                if 2 + len(chart) + len(where) + len(state) <= width:
+                    break
+        return [(GLYPH[cls] + " ", GLYPH_STYLE[cls]), (chart, BOLD), (f"{where:<21}", None),
                 (state, BOLD if row.state == "open" else DIM)]
 
     def render_lines(self, crop):
@@ -92,7 +101,7 @@ class SignalList(ScrollView, can_focus=False):
         if strip is None:
             extra = REVERSE if chosen else None
             segs = []
-            for text, style in self.line_parts(self.rows[index], part):
+            for text, style in self.line_parts(self.rows[index], part, self.scrollable_content_region.width):
                 st = base + style if style is not None else base
                 segs.append(Segment(text, st + extra if extra else st))
             strip = Strip(segs).crop_extend(0, width, base + extra if extra else base)
