@@ -11,6 +11,7 @@ import sys
 from pathlib import Path
 from typing import NoReturn, Sequence
 
+from workbench.core.text import printable
 from workbench.core.model import Exclusion, Settings, WorkbenchError
 from workbench.options import (add_data_options, add_open_options, add_setup_options, layout_request_from_args,  # noqa: F401
                                settings_from_args)
@@ -21,10 +22,10 @@ class _Parser(argparse.ArgumentParser):
         fail(f"{message} (see '{self.prog} --help')")
 
 
-def fail(msg: str) -> NoReturn:
-    """Print a one-line error and exit with status 2."""
+def fail(msg: str, code: int = 2) -> NoReturn:
+    """Print a one-line error and exit with status ``code`` (2: bad input or usage; 3: busy)."""
     print(f"workbench: error: {msg}", file=sys.stderr)
-    raise SystemExit(2)
+    raise SystemExit(code)
 
 
 def _parse_exclusions(items: Sequence[str], ds) -> list[tuple[Exclusion, str]]:
@@ -60,14 +61,24 @@ def cmd_report(args: argparse.Namespace) -> int:
     if is_case_path(args.path):
         from workbench.core.case.casefile import Case
         from workbench.core.case import review as case_report
-        case = Case.open(args.path, readonly=True)
+        from workbench.core.case.integrity import verify
+        try:
+            case = Case.open(args.path, readonly=True)
+        except WorkbenchError:
+            checked = verify(args.path, recompute=False)  # not a case file at all: raises (exit 2)
+            for line in checked.lines():
+                print(f"workbench: {printable(line)}", file=sys.stderr)
+            return 1  # a case file whose trail does not replay: an integrity problem, reported
         inputs = _report_inputs(args.path, case)
+        checked = verify(args.path, recompute=False)
+        if not checked.intact:  # reported, and the exit code says it needs attention
+            print(f"workbench: {printable(checked.lines()[0])}", file=sys.stderr)
         if args.output:
             check_output(args.output, inputs)
         for n in case.notices:
             print(f"workbench: {n}", file=sys.stderr)
         from workbench.core.case.format import check_data
-        status = check_data(case.data, case.path)
+        status = check_data(case.data, case.path, case.events)
         if not status.usable:
             return _report_case_without_data(case, args, status.message)
         ds = case.load_dataset()
@@ -98,6 +109,8 @@ def cmd_report(args: argparse.Namespace) -> int:
         text = add_sections(text, a, args.format, state_of, args.summary, args.by_stream)
     out = text + (("\n" + extra) if extra else "")
     _emit(args, out, inputs)
+    if is_case_path(args.path) and not checked.intact:
+        return 1
     if args.fail_on_signal and open_signals(a, states):
         return 1
     return 0
@@ -242,7 +255,7 @@ def main(argv: Sequence[str] | None = None) -> int:
             args = parser.parse_args(["open"] + argv)
         return int(args.func(args) or 0)
     except WorkbenchError as e:
-        fail(str(e))
+        fail(str(e), getattr(e, "exit_code", 2))
     except KeyboardInterrupt:
         return 130
     except BrokenPipeError:

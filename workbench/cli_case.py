@@ -19,14 +19,33 @@ def _notices(case: Any) -> None:
         print(f"workbench: {printable(n)}", file=sys.stderr)
 
 
+DEFAULT_WAIT = 10.0
+"""Seconds a case action waits for another writer's lock before giving up (exit 3)."""
+
+
 def _open(args: argparse.Namespace, readonly: bool = False):
     from workbench.core.case.casefile import Case
-    case = Case.open(args.case, readonly=readonly, author=getattr(args, "author", None))
-    _notices(case)
+    from workbench.core.case.disk import CaseBusy
+    case = Case.open(args.case, readonly=readonly, author=getattr(args, "author", None),
+                     wait=getattr(args, "wait", DEFAULT_WAIT), repair=getattr(args, "repair", None))
     if case.readonly and not readonly:
         case.close()
+        if case.holder is not None:
+            raise CaseBusy(f"{args.case} is busy: open for writing by {case.holder.words()}; waited "
+                           f"{getattr(args, 'wait', DEFAULT_WAIT):g} s (--wait SECONDS to wait longer)")
         raise WorkbenchError(f"cannot change {args.case}: {case.readonly_reason}")
+    _notices(case)
     return case
+
+
+def _seconds(text: str) -> float:
+    try:
+        v = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"not a number of seconds: {text!r}") from None
+    if not (0 <= v < 1e6):
+        raise argparse.ArgumentTypeError(f"--wait takes 0 or more seconds, not {text!r}")
+    return v
 
 
 def _limit_lines(ev: Event) -> list[str]:
@@ -179,9 +198,17 @@ def cmd_show(args: argparse.Namespace) -> int:
     return 0
 
 
+def cmd_sign(args: argparse.Namespace) -> int:
+    with _open(args) as case:
+        ev = case.sign(args.key)
+        print(f"{printable(str(case.path))}: event {ev.seq}: {describe_trail(case.events)[-1]}")
+        print(f"  head hash to quote: {ev.hash}")
+    return 0
+
+
 def cmd_verify(args: argparse.Namespace) -> int:
     from workbench.core.case.casefile import verify
-    result = verify(args.case, recompute=not args.no_recompute)
+    result = verify(args.case, recompute=not args.no_recompute, expect_head=args.expect_head, signers=args.signers)
     for line in result.lines():
         print(printable(line))
     return 0 if result.intact else 1
@@ -198,6 +225,11 @@ def register(subparsers: Any) -> None:
         if with_case:
             p.add_argument("case", metavar="CASE", help="the case file (*.case.json)")
         p.add_argument("--author", help="who does this (default: $WORKBENCH_AUTHOR, else user@host)")
+        if with_case:
+            p.add_argument("--wait", type=_seconds, default=DEFAULT_WAIT, metavar="SECONDS",
+                           help=f"wait this long for another writer (default {DEFAULT_WAIT:g}); then exit 3")
+            p.add_argument("--repair", metavar="REASON", help="write on a case that does not verify, recording a "
+                           "repair event that states what was found")
         p.set_defaults(func=func)
         return p
 
@@ -239,9 +271,16 @@ def register(subparsers: Any) -> None:
     p.add_argument("--add", action="append", metavar="NAME", help="add a category (repeatable)")
     p.add_argument("--remove", action="append", metavar="NAME", help="remove a category (repeatable)")
     action("show", cmd_show, "print the case's state and trail")
+    p = action("sign", cmd_sign, "sign off the trail's head with your SSH key (ssh-keygen -Y sign)")
+    p.add_argument("--key", metavar="FILE", help="SSH private key, or public key whose private half is in the agent "
+                   "(default: $WORKBENCH_SIGNING_KEY, else ~/.ssh/id_ed25519, id_ecdsa, id_rsa)")
 
     v = subparsers.add_parser("verify", help="check a case file's integrity (exit 0 only when intact)")
     v.add_argument("case", metavar="CASE", help="the case file (*.case.json)")
+    v.add_argument("--expect-head", metavar="HASH", help="fail unless the trail holds this event (12+ hex digits of "
+                   "a head hash you kept) still on the chain")
+    v.add_argument("--signers", metavar="FILE", help="allowed-signers file (ssh-keygen format) to check every "
+                   "sign-off against")
     v.add_argument("--no-recompute", action="store_true",
                    help="check the hash chain and the data only, not the recorded limits")
     v.set_defaults(func=cmd_verify)

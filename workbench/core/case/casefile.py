@@ -14,13 +14,14 @@ from pathlib import Path
 from typing import Any
 
 from workbench.core.case.events import (
-    DEFAULT_CAUSES, CaseState, Event, apply, default_author, exclusion_payload, replay, settings_from_dict, utc_now,
+    DEFAULT_CAUSES, SIGN_NAMESPACE, CaseState, Event, apply, default_author, exclusion_payload, replay, settings_from_dict, utc_now,
 )
+from workbench.core.case.anchors import bak_finding, file_findings
 from workbench.core.case.disk import (
     CaseLock, LockHolder, atomic_write, backup_path, clean_temps, keep_previous, lock_path,
 )
 from workbench.core.case.format import (
-    SUFFIX, DataRef, DataStatus, Document, build, canonical_json, chain_break, check_data, data_ref_from_dict,
+    SUFFIX, DataRef, DataStatus, Document, break_key, build, event_break, canonical_json, chain_break, check_data, data_ref_from_dict,
     event_hash, jsonable, parse, read_bytes, read_json, render, seal, sha256,
 )
 from workbench.core.case.integrity import Verification, verify
@@ -76,6 +77,11 @@ class Case:
         self.notices = notices
         """Plain-words notices from opening (data grown, stale lock taken over, holder of the lock)."""
         self._data_dict, self._raw, self._lock = doc.data_dict, raw, lock
+        self._canonical = raw == render(doc.data_dict, doc.events) if lock else False
+        """True when the bytes are exactly as workbench writes them (so a new event is appended to them)."""
+        self._stats = _stats(self.path) if lock else None
+        self.holder: LockHolder | None = None
+        """Who held the lock when this case had to open read-only (None: nobody, or not asked)."""
         self._cache: tuple[Any, str, Any] | None = None
 
     @property
@@ -85,11 +91,18 @@ class Case:
     # -- opening and creating
 
     @classmethod
-    def open(cls, path: str | Path, readonly: bool = False, author: str | None = None) -> "Case":
-        """Open a case; the state is the replay of its trail.  Never writes the case file."""
+    def open(cls, path: str | Path, readonly: bool = False, author: str | None = None, wait: float = 0.0,
+             repair: str | None = None) -> "Case":
+        """Open a case; the state is the replay of its trail.  Never writes the case file, except to
+        record a ``repair`` event when ``repair`` (the reason) is given and the file does not verify.
+
+        ``wait``: seconds to wait for another writer's lock before opening read-only (``holder``
+        then names who holds it).  A file that does not verify (broken chain, edited text, a
+        ``.bak`` holding a longer chain) opens read-only unless ``repair`` is given.
+        """
         path, author = Path(path), default_author(author)
         notices: list[str] = []
-        lock = reason = None
+        lock = reason = holder = None
         if readonly:
             reason = "opened read-only"
         else:
@@ -99,7 +112,7 @@ class Case:
                 raise WorkbenchError(f"{path}: the case file is a symbolic link (to {os.readlink(path)}); workbench "
                                      "does not write through links: open the real file")
             try:
-                lock, holder, notice = CaseLock.acquire(path, author)
+                lock, holder, notice = CaseLock.acquire_waiting(path, author, wait)
             except WorkbenchError as exc:  # e.g. a folder we may read but not write
                 lock, holder, notice = None, None, None
                 reason = f"cannot take the lock ({exc}); this view is read-only"
@@ -110,6 +123,7 @@ class Case:
                 who = holder.words() if holder else "another session (its lock file names no holder yet)"
                 reason = f"{path} is open for writing by {who}; this view is read-only"
                 notices.append(reason)
+        findings: list[str] = []
         try:
             raw = read_bytes(path)
             try:
@@ -118,15 +132,23 @@ class Case:
                 bak = backup_path(path)
                 hint = f"; the previous version is in {bak}" if bak.is_file() else ""
                 raise WorkbenchError(f"{exc}{hint}") from None
-            status = check_data(doc.data, path)
+            status = check_data(doc.data, path, doc.events)
+            if lock:
+                findings = file_findings(path, raw, doc)
         except BaseException:
             if lock:
                 lock.release()
             raise
-        if doc.chain_break:
+        if doc.chain_break and not lock:
             n, why = doc.chain_break
             notices.append(f"{path}: the trail is broken at event {n}: {why}; opened read-only")
             reason = reason or f"the trail is broken at event {n} (run workbench verify)"
+        if findings and not repair:
+            bak = backup_path(path)
+            reason = reason or (f"{path} does not verify: {findings[0]}"
+                                + (f"; the previous version is in {bak}" if bak.is_file() else "")
+                                + "; give --repair REASON to record what was found and carry on")
+            notices.append(reason)
         if status.status == "appended":
             notices.append(status.message)
         elif not status.usable:
@@ -137,7 +159,35 @@ class Case:
             lock = None
         if lock:  # temporary files of a writer that was killed mid-write (writers hold the lock)
             clean_temps(path)
-        return cls(path, doc, raw, author, lock, reason, status, notices)
+        case = cls(path, doc, raw, author, lock, reason, status, notices)
+        case.holder = holder
+        if lock and findings and repair:
+            case._repair(repair, findings, doc)
+        elif repair and lock:
+            notices.append(f"{path} verifies: nothing to repair")
+        return case
+
+    def _repair(self, reason: str, found: list[str], doc: Document) -> None:
+        """Record what was found in a ``repair`` event (breaks accepted exactly as they are) and
+        re-render the file; a ``.bak`` holding a longer chain is kept aside, never overwritten."""
+        breaks, prev = [], None
+        trail = [ev.as_dict() for ev in doc.events]
+        for i, ev in enumerate(trail, 1):
+            if event_break({"data": doc.data_dict, "trail": trail}, i, ev, prev) is not None:
+                n, stored, computed, link = break_key(i, ev)
+                breaks.append({"event": n, "hash": stored, "computed": computed, "prev": link})
+            prev = ev.get("hash")
+        payload: dict = {"reason": _text(reason), "found": found, "breaks": breaks}
+        finding = bak_finding(self.path, doc.events)
+        if finding:
+            bak = backup_path(self.path)
+            kept = bak.with_name(f"{bak.name}.{sha256(bak.read_bytes())[:12]}")
+            os.replace(bak, kept)
+            payload["bak"] = kept.name
+            self.notices.append(f"the previous version that did not match was kept as {kept}")
+        self._canonical = False
+        self._append("repair", payload)
+        self.chain_break = None
 
     @classmethod
     def create(cls, data_path: str | Path, request: LayoutRequest, settings: Settings, author: str | None = None,
@@ -219,14 +269,40 @@ class Case:
                 after: dict | None = None, data_bytes: int | None = None) -> Event:
         ev, state = self._event(kind, payload, author, before, after,
                                 self.data.size_bytes if data_bytes is None else data_bytes)
-        raw = render(self._data_dict, self.events + (ev,))
-        on_disk = read_bytes(self.path)
-        if on_disk != self._raw:
-            raise WorkbenchError(f"{self.path} was changed by something else since it was opened; reopen it")
+        if self._canonical:  # the new event's bytes only: the rest is the file as written
+            raw = b"".join((self._raw[:-len(_TAIL)], b",\n  ", canonical_json(ev.as_dict()), _TAIL))
+        else:
+            raw = render(self._data_dict, self.events + (ev,))
+        self._check_unchanged()
         keep_previous(self.path, backup_path(self.path), self._raw)
         atomic_write(self.path, raw)
-        self._raw, self.events, self.state = raw, self.events + (ev,), state
+        self._raw, self.events, self.state, self._canonical = raw, self.events + (ev,), state, True
+        self._stats = _stats(self.path)
         return ev
+
+    def _check_unchanged(self) -> None:
+        """Refuse to write when the file or its .bak changed under the lock (a non-cooperating process)."""
+        now = _stats(self.path)
+        if self._stats is None:
+            self._stats = now
+        if now[0] != self._stats[0]:
+            if read_bytes(self.path) != self._raw:
+                raise WorkbenchError(f"{self.path} was changed by something else since it was opened; reopen it")
+        if now[1] != self._stats[1]:
+            finding = bak_finding(self.path, self.events)
+            if finding:
+                raise WorkbenchError(f"{self.path}: refusing to write: {finding[1]} (reopen with --repair REASON)")
+
+    def sign(self, key: str | Path | None = None, author: str | None = None) -> Event:
+        """Sign off the current head with an SSH key (``ssh-keygen -Y sign``); records a ``sign-off`` event."""
+        from workbench.core.case.signoff import default_key, sign
+        self._check_writable()
+        head = self.state.head_hash
+        signature, fingerprint = sign(head, Path(key) if key else default_key())
+        payload = {"head": head, "namespace": SIGN_NAMESPACE, "signature": signature}
+        if fingerprint:
+            payload["key"] = fingerprint
+        return self._append("sign-off", payload, author)
 
     def exclude(self, target: Exclusion, reason: str, cause: str | None = None, signal: str | None = None,
                 limits_before: dict | None = None, limits_after: dict | None = None, author: str | None = None,
@@ -288,7 +364,7 @@ class Case:
     def load_dataset(self) -> Dataset:
         """Load the referenced data with the recorded layout request (path relative to the case file)."""
         from workbench.core.data.reader import load
-        self.data_status = check_data(self.data, self.path)
+        self.data_status = check_data(self.data, self.path, self.events)
         if self.data_status.status == "missing":
             raise WorkbenchError(self.data_status.message)
         if not self.data_status.usable and not self.readonly:  # changed since the case was opened
@@ -360,7 +436,23 @@ class Case:
 _VERBS = {"exclude": "exclude", "restore": "restore", "note": "add the note", "signal": "mark the signal",
           "settings": "change the setup", "freeze": "freeze the limits", "unfreeze": "unfreeze the limits",
           "causes": "change the cause list", "created": "create the case", "data-appended": "record the new data",
-          "retract": "retract"}
+          "retract": "retract", "repair": "record the repair", "sign-off": "sign off"}
+
+
+_TAIL = b"\n ]\n}\n"
+"""How a case file written by workbench ends (see ``format.render``)."""
+
+
+def _stats(path: Path) -> tuple:
+    """(case file, .bak) identity and size and modification time: what a change under the lock alters."""
+    out = []
+    for p in (path, backup_path(path)):
+        try:
+            st = os.stat(p)
+            out.append((st.st_ino, st.st_size, st.st_mtime_ns))
+        except OSError:
+            out.append(None)
+    return tuple(out)
 
 
 def _body(seq: int, kind: str, payload: dict, author: str, before: dict | None, after: dict | None,

@@ -6,6 +6,7 @@ import os
 import secrets
 import socket
 import stat
+import time
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Iterable
@@ -13,6 +14,12 @@ from typing import Iterable
 from workbench.core.case.events import printable, utc_now
 from workbench.core.case.format import SUFFIX, canonical_json
 from workbench.core.model import WorkbenchError
+
+
+class CaseBusy(WorkbenchError):
+    """Another writer holds the case's lock (exit code 3: try again later)."""
+
+    exit_code = 3
 
 
 # ---- the one safe writer ----------------------------------------------------------------------
@@ -123,7 +130,7 @@ def check_output(path: str | Path, inputs: Iterable[str | Path] = ()) -> None:
     """Refuse (one line) an output path that names an input, a case file or one of its companions."""
     out = Path(path)
     name = out.name
-    if any(name.endswith(end) for end in (SUFFIX, SUFFIX + ".bak", SUFFIX + ".lock")) or name.endswith(TMP_SUFFIX):
+    if SUFFIX in name or name.endswith(TMP_SUFFIX):
         raise WorkbenchError(f"{out}: refusing to write output over a case file or its companions "
                              "(choose another name)")
     for src in inputs:
@@ -185,9 +192,7 @@ def clean_temps(path: Path) -> list[str]:
     return gone
 
 
-def backup_path(path: Path) -> Path:
-    """``x.case.json`` -> ``x.case.json.bak`` (the previous version)."""
-    return Path(path).with_name(Path(path).name + ".bak")
+from workbench.core.case.anchors import backup_path  # noqa: E402,F401  (kept here for its callers)
 
 
 def lock_path(path: Path) -> Path:
@@ -278,10 +283,21 @@ class CaseLock:
                           "the case")
             os.ftruncate(fd, 0)
             os.lseek(fd, 0, os.SEEK_SET)
-            os.write(fd, me)
-            os.fsync(fd)
+            os.write(fd, me)  # no fsync: the name of the holder only matters while this process lives
             return cls(path, fd), None, notice
         raise WorkbenchError(f"{path}: cannot take the lock (the lock file keeps changing)")
+
+    @classmethod
+    def acquire_waiting(cls, case_path: Path, author: str, wait: float = 0.0
+                        ) -> tuple["CaseLock | None", LockHolder | None, str | None]:
+        """:meth:`acquire`, trying again for up to ``wait`` seconds while another writer holds the lock."""
+        deadline, pause = time.monotonic() + max(0.0, wait), 0.002
+        while True:
+            lock, holder, notice = cls.acquire(case_path, author)
+            if lock is not None or time.monotonic() >= deadline:
+                return lock, holder, notice
+            time.sleep(min(pause, max(0.0, deadline - time.monotonic())))
+            pause = min(pause * 2, 0.025)
 
     def __del__(self) -> None:  # a session that forgot to close still lets go of the lock
         try:

@@ -30,11 +30,13 @@ FORMAT = "workbench.case"
 VERSION = 1
 DEFAULT_CAUSES = ("people", "machine", "method", "material", "measurement", "environment")
 EVENT_KINDS = ("created", "settings", "exclude", "restore", "note", "signal", "freeze", "unfreeze", "causes",
-               "data-appended", "retract")
+               "data-appended", "retract", "repair", "sign-off")
 LIMIT_EVENTS = ("created", "settings", "exclude", "restore", "freeze", "unfreeze")
 """Events that change the limits and so record them (before and after)."""
 MARKS = ("explained", "no-cause-found", "open")
 """Signal states a user sets; "excluded" follows from an exclusion that answers the signal."""
+SIGN_NAMESPACE = "workbench-case"
+"""The ``ssh-keygen -Y sign`` namespace of a sign-off (a signature made for another purpose never fits)."""
 NOTE_KINDS = ("case", "subgroup", "signal", "range")
 RETRACTABLE = ("exclude", "restore", "note", "signal")
 """Events a user may take back with a ``retract`` event (the original stays in the trail)."""
@@ -306,6 +308,18 @@ class _Builder:
             note = _opt_str(p.get("note"), where, "note")
             for one in keys:
                 self.marks[one] = SignalState(mark, note, ev.author, ev.time, ev.seq)
+        elif k == "repair":
+            _str(p.get("reason"), where, "reason", empty=False)
+            found = p.get("found")
+            if not isinstance(found, list) or not found or not all(isinstance(x, str) and x for x in found):
+                raise WorkbenchError(f"{where}: a repair states what was found (a list of lines)")
+        elif k == "sign-off":
+            if p.get("head") != ev.prev:
+                raise WorkbenchError(f"{where}: the sign-off names head {str(p.get('head'))[:16]}…, not the event "
+                                     "before it")
+            if p.get("namespace") != SIGN_NAMESPACE:
+                raise WorkbenchError(f"{where}: a sign-off is made in the namespace {SIGN_NAMESPACE!r}")
+            _str(p.get("signature"), where, "signature", empty=False)
         elif k == "retract":
             self._retract(ev, where)
         elif k == "freeze":
@@ -406,6 +420,8 @@ _PAYLOAD_KEYS = {
     "unfreeze": ({"reason"}, set()),
     "data-appended": ({"subgroups", "rows", "size_bytes", "sha256"}, {"signals"}),
     "retract": ({"event", "hash", "reason"}, set()),
+    "repair": ({"reason", "found"}, {"breaks", "bak"}),
+    "sign-off": ({"head", "namespace", "signature"}, {"key"}),
 }
 
 

@@ -140,51 +140,7 @@ def _check_fields(d: Any, where: str, strings: tuple[str, ...], other: set[str])
 _HEX64 = re.compile(r"[0-9a-f]{64}")
 
 
-@dataclass(frozen=True)
-class DataStatus:
-    """How the data file compares with the recorded fingerprint."""
-
-    status: str
-    """same | appended | changed | missing."""
-    path: Path
-    """The data file, resolved against the case file's folder."""
-    size_bytes: int | None
-    """Its current size (None when missing)."""
-    message: str
-    """One line in plain words."""
-
-    @property
-    def usable(self) -> bool:
-        return self.status in ("same", "appended")
-
-
-def check_data(ref: DataRef, case_path: Path) -> DataStatus:
-    """Compare the data file with the fingerprint: same, grown by appended rows, changed or missing."""
-    path = Path(os.path.normpath(Path(case_path).parent / ref.path))
-    shown = str(path)
-    try:
-        head, whole, size, tail_newlines = hashlib.sha256(), hashlib.sha256(), 0, 0
-        with open(path, "rb") as fh:
-            while chunk := fh.read(1 << 20):
-                keep = max(0, min(len(chunk), ref.size_bytes - size))
-                head.update(chunk[:keep])
-                whole.update(chunk)
-                tail_newlines += chunk[keep:].count(b"\n")
-                size += len(chunk)
-    except FileNotFoundError:
-        return DataStatus("missing", path, None, f"the data file {shown} is missing (recorded as {ref.path})")
-    except OSError as exc:
-        return DataStatus("missing", path, None, f"the data file {shown} cannot be read: {exc.strerror}")
-    if size == ref.size_bytes and whole.hexdigest() == ref.sha256:
-        return DataStatus("same", path, size, f"the data file {shown} is unchanged")
-    if size > ref.size_bytes and head.hexdigest() == ref.sha256:
-        return DataStatus("appended", path, size,
-                          f"the data file {shown} has grown by {size - ref.size_bytes} bytes (about {tail_newlines} "
-                          f"row{'' if tail_newlines == 1 else 's'}) since the case was created; the new rows are "
-                          "Phase II material")
-    return DataStatus("changed", path, size,
-                      f"the data file {shown} has changed since the case was created (its first {ref.size_bytes} "
-                      "bytes no longer match the recorded SHA-256)")
+from workbench.core.case.fingerprint import DataStatus, Judged, check_data, judged_prefixes  # noqa: E402,F401
 
 
 # ---- parsing and rendering the document -----------------------------------------------------
@@ -243,29 +199,68 @@ def read_json(raw: bytes, source: str) -> dict:
 
 
 def chain_break(doc: dict) -> tuple[int, str] | None:
-    """The first event (from 1) where the hash chain breaks, with the reason; None when whole."""
+    """The first event (from 1) where the hash chain breaks, with the reason; None when whole.
+
+    A break that a later ``repair`` event recorded exactly (event number, stored hash, computed
+    hash and link) is accepted: the repair keeps it visible in the trail for ever, and any further
+    change to that event changes its computed hash and breaks the chain again.
+    """
+    accepted = repaired_breaks(doc["trail"])
     prev = None
     for i, ev in enumerate(doc["trail"], 1):
-        if not isinstance(ev, dict):
-            return i, "it is not a JSON object"
-        try:
-            computed = event_hash(ev)
-        except WorkbenchError as exc:
-            return i, str(exc)
-        if ev.get("hash") != computed:
-            return i, "its content does not match its hash (it was changed after it was written)"
-        if ev.get("prev") != prev:
-            return i, f"it does not follow event {i - 1} (the link to the previous event is broken)"
-        if i == 1:
-            payload = ev.get("payload")
-            try:
-                ref_hash = sha256(canonical_json(doc.get("data")))
-            except WorkbenchError as exc:
-                return 1, str(exc)
-            if not isinstance(payload, dict) or payload.get("data_ref") != ref_hash:
-                return 1, "the data reference no longer matches the one recorded in event 1 (it was edited)"
-        prev = computed
+        found = event_break(doc, i, ev, prev)
+        if found is not None:
+            if not isinstance(ev, dict) or accepted.get(break_key(i, ev), 0) <= i:
+                return i, found
+        prev = ev.get("hash")
     return None
+
+
+def event_break(doc: dict, i: int, ev: Any, prev: str | None) -> str | None:
+    """What is wrong with event ``i`` (from 1) given the previous stored hash, or None."""
+    if not isinstance(ev, dict):
+        return "it is not a JSON object"
+    try:
+        computed = event_hash(ev)
+    except WorkbenchError as exc:
+        return str(exc)
+    if ev.get("hash") != computed:
+        return "its content does not match its hash (it was changed after it was written)"
+    if ev.get("prev") != prev:
+        return f"it does not follow event {i - 1} (the link to the previous event is broken)"
+    if i == 1:
+        payload = ev.get("payload")
+        try:
+            ref_hash = sha256(canonical_json(doc.get("data")))
+        except WorkbenchError as exc:
+            return str(exc)
+        if not isinstance(payload, dict) or payload.get("data_ref") != ref_hash:
+            return "the data reference no longer matches the one recorded in event 1 (it was edited)"
+    return None
+
+
+def break_key(i: int, ev: dict) -> tuple:
+    """What a repair records of a broken event: its number, stored hash, computed hash and link."""
+    try:
+        computed = event_hash(ev)
+    except WorkbenchError:
+        computed = None
+    return i, _key(ev.get("hash")), computed, _key(ev.get("prev"))
+
+
+def _key(v: Any) -> Any:
+    return v if v is None or isinstance(v, (str, int)) else repr(v)
+
+
+def repaired_breaks(trail: list) -> dict[tuple, int]:
+    """break_key -> number of the repair event that recorded it."""
+    out: dict[tuple, int] = {}
+    for i, ev in enumerate(trail, 1):
+        if isinstance(ev, dict) and ev.get("kind") == "repair" and isinstance(ev.get("payload"), dict):
+            for b in ev["payload"].get("breaks") or ():
+                if isinstance(b, dict):
+                    out.setdefault(tuple(_key(b.get(k)) for k in ("event", "hash", "computed", "prev")), i)
+    return out
 
 
 def parse(raw: bytes, source: str) -> Document:

@@ -7,6 +7,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Iterable
 
+from workbench.core.case.anchors import bak_finding, check_anchor, edited_text, repair_remarks
 from workbench.core.case.events import CaseState, Event, apply, replay
 from workbench.core.case.format import (
     DataStatus, Document, build, canonical_json, chain_break, check_data, jsonable, read_bytes, read_json, render,
@@ -44,8 +45,11 @@ class Verification:
         return [head] + [f"  also: {p}" for p in self.problems[1:]] + [f"  note: {r}" for r in self.remarks]
 
 
-def verify(path: str | Path, recompute: bool = True) -> Verification:
-    """Check a case file: hash chain, replay, data fingerprint and (``recompute``) the recorded limits.
+def verify(path: str | Path, recompute: bool = True, expect_head: str | None = None,
+           signers: str | Path | None = None) -> Verification:
+    """Check a case file: hash chain, replay, data fingerprints, the ``.bak`` beside it, sign-offs
+    (against an allowed-signers file when ``signers`` is given), an expected head (``expect_head``,
+    12 or more hex digits) and (``recompute``) the recorded limits.
 
     Raises WorkbenchError only when the file cannot be read as a case file at all (missing,
     not JSON, a newer format version).  Never writes anything.
@@ -58,15 +62,30 @@ def verify(path: str | Path, recompute: bool = True) -> Verification:
     except WorkbenchError as exc:
         broken = chain_break(top)
         problems = [f"the chain breaks at event {broken[0]}: {broken[1]}"] if broken else []
+        if expect_head:
+            problems.append(f"the expected head {expect_head} could not be looked for: the trail does not replay")
         return Verification(str(path), False, len(top["trail"]), None, broken, None, tuple(problems + [str(exc)]))
     broken = doc.chain_break
     problems = [f"the chain breaks at event {broken[0]}: {broken[1]}"] if broken else []
     if not broken:
-        edited = _edited_text(raw, doc)
+        edited = edited_text(raw, doc)
         if edited:
             problems.append(edited)
-    status = check_data(doc.data, path)
-    remarks: list[str] = []
+    bak = bak_finding(path, doc.events)
+    if bak:
+        problems.append(bak[1])
+    remarks: list[str] = repair_remarks(doc.events)
+    if expect_head is not None:
+        on_chain, words = check_anchor(doc.events, broken, expect_head)
+        (remarks if on_chain else problems).append(words)
+    if any(ev.kind == "sign-off" for ev in doc.events):
+        from workbench.core.case.signoff import check_signoffs
+        bad, good = check_signoffs(doc.events, signers)
+        problems += bad
+        remarks += good
+    elif signers is not None:
+        problems.append("the trail holds no sign-off to check against the signers file")
+    status = check_data(doc.data, path, doc.events)
     if not status.usable:
         problems.append(status.message)
     elif status.status == "appended":
@@ -80,23 +99,6 @@ def verify(path: str | Path, recompute: bool = True) -> Verification:
                            "(the chain or the data do not allow it)")
     return Verification(str(path), not problems, len(doc.events), doc.state.head_hash, broken, status,
                         tuple(problems), tuple(remarks))
-
-
-def _edited_text(raw: bytes, doc: Document) -> str | None:
-    """Where the file's text differs from what workbench writes for the same values, or None.
-
-    The hashes cover values; this catches edits that keep the values (a number spelled
-    differently, reformatting), so that changing any character of a case file is noticed.
-    """
-    expected = render(doc.data_dict, doc.events)
-    if raw == expected:
-        return None
-    have, want = raw.split(b"\n"), expected.split(b"\n")
-    line = next((i for i, (a, b) in enumerate(zip(have, want)) if a != b), min(len(have), len(want)))
-    where = ("the data reference" if line == 3 else f"event {line - 4}" if 5 <= line < 5 + len(doc.events)
-             else "the file's framing")
-    return (f"{where} is not stored the way workbench writes it (line {line + 1}): its text was edited, "
-            "although its values still match their hashes")
 
 
 def _recompute_limits(doc: Document, status: DataStatus) -> list[str]:

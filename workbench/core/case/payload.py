@@ -168,6 +168,10 @@ def describe(ev: Event) -> str:
                 + (f": {q(p['note'])}" if p.get("note") else ""))
     if ev.kind == "signal":
         return f"signal {q(p['key'])} marked {p['state']}" + (f": {q(p['note'])}" if p.get("note") else "")
+    if ev.kind == "repair":
+        return f"repair: {q(p['reason'])} — found: " + "; ".join(q(x) for x in p["found"])
+    if ev.kind == "sign-off":
+        return f"signed off head {q(p['head'])[:16]}…" + (f" with key {q(p['key'])}" if p.get("key") else "")
     if ev.kind == "retract":
         return f"retracted event {p['event']}: {q(p['reason'])}"
     if ev.kind == "settings":
