@@ -10,11 +10,11 @@ import hashlib
 import os
 from dataclasses import dataclass
 from pathlib import Path
-from typing import TYPE_CHECKING, Iterable
+from typing import Any, Iterable
 
-if TYPE_CHECKING:
-    from workbench.core.case.events import Event
-    from workbench.core.case.format import DataRef
+DataRef = Any
+"""``format.DataRef`` (not imported: format re-exports this module)."""
+Event = Any
 
 
 @dataclass(frozen=True)
