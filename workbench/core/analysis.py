@@ -92,15 +92,19 @@ def exclusion_masks(ds: Dataset, exclusions: Iterable[Exclusion]) -> tuple[np.nd
     """
     sub = np.zeros(ds.m, bool)
     k = max(ds.k, 1)
+    exclusions = tuple(exclusions)
+    # all labels looked up at once (a case may hold thousands of exclusions)
+    where = ds._label_index().positions([str(ex.subgroup) for ex in exclusions]) if exclusions else ()
     cell_list: list[tuple[int, int]] = []
-    for ex in exclusions:
-        i = ds.index_of(ex.subgroup)
+    for ex, i in zip(exclusions, where):
+        if i < 0:
+            ds.index_of(ex.subgroup)  # raises the one-line error naming the label
         if ex.stream is None:
             sub[i] = True
         else:
             if ds.is_summary:
                 raise WorkbenchError("summary data hold no single readings: exclude the whole subgroup")
-            cell_list.append((i, ds.stream_index(ex.stream)))
+            cell_list.append((int(i), ds.stream_index(ex.stream)))
     if not cell_list:
         return sub, np.broadcast_to(sub[:, None], (ds.m, k))
     cells = np.zeros((ds.m, k), bool)

@@ -219,6 +219,12 @@ class _LabelIndex:
         import pandas as pd
         self._index = pd.Index(labels.astype(str))
 
+    def positions(self, labels: list[str]) -> np.ndarray:
+        """Positions of many labels at once (-1 for an unknown label), in C."""
+        if self._index.is_unique:
+            return self._index.get_indexer(labels)
+        return np.array([-1 if (i := self.get(x)) is None else i for x in labels], dtype=np.intp)
+
     def get(self, label: str) -> int | None:
         try:
             loc = self._index.get_loc(label)

@@ -174,6 +174,9 @@ def report_text(a: Analysis, states: dict | None = None, width: int = 100) -> st
          + (" …" if ds.k > 12 else ""),
          f"sha256    {ds.sha256}",
          f"mapping   {_p(describe_mapping(a))}"]
+    if ds.missing or ds.skipped_bad:
+        L.append(f"cells     {ds.missing} missing" + (f", {ds.skipped_bad} not numbers (skipped)" if ds.skipped_bad
+                                                         else "") + " — left out of the statistics")
     for n in ds.notices:
         L.append(f"notice    {_p(n)}")
     L.append(f"chart     {a.chart}   sigma (within) {fmt(a.sigma_within)} by {sigma_label(a)}   "
@@ -233,7 +236,8 @@ def report_markdown(a: Analysis, states: dict | None = None) -> str:
     L = [f"# Control chart review — {esc(ds.path)}", "",
          "## Data", "",
          "| item | value |", "|---|---|",
-         f"| file | {esc(ds.path)} |", f"| SHA-256 | `{ds.sha256}` |", f"| rows | {ds.rows} |",
+         f"| file | {esc(ds.path)} |", f"| SHA-256 | `{ds.sha256}` |", f"| rows | {ds.rows} |", f"| missing cells | {ds.missing} |",
+         *([f"| cells skipped (not numbers) | {ds.skipped_bad} |"] if ds.skipped_bad else []),
          f"| subgroups | {ds.m} |", f"| streams | {esc(', '.join(ds.streams))} |",
          f"| mapping | {esc(describe_mapping(a))} |", ""]
     for n in ds.notices:

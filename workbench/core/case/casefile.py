@@ -255,7 +255,10 @@ class Case:
         self._check_writable()
         body = _body(self.state.seq + 1, kind, payload, default_author(author or self.author), before, after,
                      data_bytes if (before is not None or after is not None) else None)
-        ev = seal(body, self.state.head_hash)
+        try:
+            ev = seal(body, self.state.head_hash)
+        except WorkbenchError as exc:  # e.g. a NaN that cannot be stored: name the file
+            raise WorkbenchError(f"{self.path}: {exc}") from None
         try:
             return ev, apply(self.state, ev)
         except WorkbenchError as exc:  # an action that does not apply: say why, without the event number

@@ -281,9 +281,14 @@ class CaseLock:
                     return None, old, None  # cannot tell whether a process on another host is alive
                 notice = (f"took over a stale lock left by {old.words()}: that session ended without closing "
                           "the case")
-            os.ftruncate(fd, 0)
-            os.lseek(fd, 0, os.SEEK_SET)
-            os.write(fd, me)  # no fsync: the name of the holder only matters while this process lives
+            try:
+                os.ftruncate(fd, 0)
+                os.lseek(fd, 0, os.SEEK_SET)
+                if os.write(fd, me) != len(me):  # no fsync: the holder's name matters only while it lives
+                    raise OSError(28, "No space left on device")
+            except OSError as exc:  # e.g. the disk is full: leave no empty lock file behind
+                cls(path, fd).release()
+                raise WorkbenchError(f"{path}: cannot write the lock file: {exc.strerror or exc}") from None
             return cls(path, fd), None, notice
         raise WorkbenchError(f"{path}: cannot take the lock (the lock file keeps changing)")
 

@@ -121,8 +121,7 @@ def _recompute_limits(doc: Document, status: DataStatus) -> list[str]:
         return datasets[nbytes]
 
     def snapshot(nbytes: int, st: CaseState) -> dict:
-        key = (nbytes, canonical_json(jsonable([st.settings.as_dict(), [e.key for e in st.exclusions],
-                                                st.frozen.as_dict() if st.frozen else None])))
+        key = (nbytes, st.seq)  # the state after event seq: O(1) to name, however many exclusions it holds
         if key not in snaps:
             snaps[key] = jsonable(limits_snapshot(analyse(dataset_for(nbytes), st.settings, st.exclusions, st.frozen)))
         return snaps[key]

@@ -243,7 +243,7 @@ class _Builder:
         n = sniff.as_numbers(self.t, col)
         if n.bad.any():
             i = int(np.argmax(n.bad))
-            msg = f"{self.t.where(i, col)}: not a number: {str(n.texts[i])!r}"
+            msg = f"{self.t.where(i, col)}: not a number: {sniff.cell_as_typed(self.t, i, col, str(n.texts[i]))!r}"
             if not self.req.skip_bad:
                 raise WorkbenchError(msg)
             self.bad += int(n.bad.sum())

@@ -128,7 +128,7 @@ def read_table(path: str | os.PathLike, text_columns: Callable[[list[str]], Iter
     decimal = _sniff_decimal(text[:SNIFF_BYTES], delim)
     if decimal == ",":
         notices = notices + ("numbers use a decimal comma",)
-    names, header = _header(shown, text, delim)
+    names, header = _header(shown, _header_text(raw, text, encoding), delim)
     keep = _leading_zero_columns(text[:SNIFF_BYTES], delim, names, set(text_columns(names)))
     cut = _partial_last_line(raw, delim, len(names))
     if cut is not None:  # a logger is still writing the last line: leave it until it is complete
@@ -277,7 +277,64 @@ def _line_at(raw: bytes, offset: int) -> int:
     return raw.count(b"\n", 0, offset) + 1
 
 
+XLSX_MAX_UNPACKED = 1 << 30
+"""A workbook whose parts unpack to more than this (1 GiB) is refused before it is read."""
+XLSX_MAX_RATIO = 200
+"""... or whose parts unpack to more than this many times their packed size (zip-bomb guard)."""
+_CELL = re.compile(rb'<c r="([A-Z]+)(\d+)"[^>]*?(?:/>|>(.*?)</c>)', re.S)
+
+
+def _check_workbook(path: str, raw: bytes) -> None:
+    """Refuse a workbook that would unpack past the caps, or whose first sheet holds formula cells
+    without a saved value (pandas would read them as empty, silently)."""
+    import zipfile
+    try:
+        with zipfile.ZipFile(io.BytesIO(raw)) as z:
+            infos = z.infolist()
+            unpacked = sum(i.file_size for i in infos)
+            packed = sum(i.compress_size for i in infos)
+            if unpacked > XLSX_MAX_UNPACKED or unpacked > XLSX_MAX_RATIO * max(packed, 1 << 16):
+                raise WorkbenchError(f"{path}: the workbook unpacks to {unpacked / 2**20:.0f} MiB from "
+                                     f"{packed / 2**20:.1f} MiB (limits: {XLSX_MAX_UNPACKED >> 20} MiB, "
+                                     f"{XLSX_MAX_RATIO}x); refused before reading — export the sheet as CSV")
+            sheet = _first_sheet(z)
+            if sheet is None:
+                return
+            xml = z.read(sheet)
+    except (zipfile.BadZipFile, KeyError, OSError, ValueError):
+        return  # pandas gives the reason
+    count, first = 0, None
+    for m in _CELL.finditer(xml):
+        body = m.group(3) or b""
+        if b"<f" in body and not re.search(rb"<v>[^<]", body):
+            count += 1
+            first = first or (m.group(1).decode(), int(m.group(2)))
+    if count:
+        raise WorkbenchError(f"{path}:{first[1]}:{first[0]}: {count} formula cell{'s' if count > 1 else ''} "
+                             "without a saved value (first shown); open and save the workbook in a spreadsheet "
+                             "program so the values are stored, or export the sheet as CSV")
+
+
+def _first_sheet(z) -> str | None:
+    """The part name of the workbook's first sheet (what ``sheet_name=0`` reads)."""
+    try:
+        book = z.read("xl/workbook.xml")
+        rels = z.read("xl/_rels/workbook.xml.rels")
+    except KeyError:
+        return None
+    m = re.search(rb'<sheet\b[^>]*?r:id="([^"]+)"', book)
+    if not m:
+        return None
+    for rel in re.finditer(rb"<Relationship\b[^>]*>", rels):
+        tag = rel.group(0)
+        if re.search(rb'Id="' + re.escape(m.group(1)) + rb'"', tag):
+            target = re.search(rb'Target="([^"]+)"', tag).group(1).decode()
+            return target.lstrip("/") if target.startswith("/") else "xl/" + target
+    return None
+
+
 def _read_xlsx(path: str, raw: bytes) -> tuple[pd.DataFrame, list[str]]:
+    _check_workbook(path, raw)
     try:
         frame = pd.read_excel(io.BytesIO(raw), sheet_name=0, header=0, engine="openpyxl")
     except Exception as exc:  # openpyxl and zipfile raise many kinds of error on a damaged workbook
@@ -326,9 +383,40 @@ def _delim_name(delim: str) -> str:
     return {",": "comma", ";": "semicolon", "\t": "tab", "|": "pipe"}[delim]
 
 
+def cell_as_typed(table: Table, i: int, column: str, fallback: str) -> str:
+    """Frame row ``i``'s cell in ``column`` as written in the file (a number too large for a float
+    is shown as ``1e309``, not ``inf``); ``fallback`` when it cannot be found (a workbook)."""
+    if not table._source:
+        return fallback
+    raw, encoding, delim, _nfields, header = table._source
+    try:
+        line = int(table.lines[i])
+        nl = np.flatnonzero(np.frombuffer(raw, np.uint8) == 10)
+        def text_of(n: int) -> str:
+            a = 0 if n == 1 else int(nl[n - 2]) + 1
+            b = int(nl[n - 1]) if n - 1 < len(nl) else len(raw)
+            return raw[a:b].decode(encoding, errors="replace").rstrip("\r")
+        names = [n.strip() or f"column {j + 1}" for j, n in enumerate(next(csv.reader([text_of(header)], delimiter=delim)))]
+        cells = next(csv.reader([text_of(line)], delimiter=delim))
+        return cells[names.index(column)].strip()
+    except (ValueError, IndexError, StopIteration, csv.Error):
+        return fallback
+
+
+def _header_text(raw: bytes, text: str, encoding: str) -> str:
+    """The text to read the header from: the sample, or up to the end of the header line when that
+    line is longer than the sample (a long header is read whole, never cut into a false repeat)."""
+    start = len(raw) - len(raw.lstrip(b"\r\n\t \xef\xbb\xbf"))
+    end = raw.find(b"\n", start)
+    end = len(raw) if end < 0 else end + 1
+    if end <= SNIFF_BYTES * 4:
+        return text[:SNIFF_BYTES * 4]
+    return raw[:end].decode(encoding, errors="replace")
+
+
 def _header(path: str, text: str, delim: str) -> tuple[list[str], int]:
     """Header names and the line the header is on."""
-    reader = csv.reader(io.StringIO(text[:SNIFF_BYTES * 4], newline=""), delimiter=delim)
+    reader = csv.reader(io.StringIO(text, newline=""), delimiter=delim)
     try:
         for rec in reader:
             if rec and any(f.strip() for f in rec):
