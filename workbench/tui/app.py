@@ -17,7 +17,7 @@ from workbench.tui.keys import APP_BINDINGS
 from workbench.tui.dialogs.choice import ChoiceDialog
 from workbench.tui.dialogs.mapping import MappingDialog
 from workbench.tui.flows import Flows
-from workbench.tui.messages import (ActionDone, ActionFailed, OpenFailed, OpenNeedsChoice, OpenNeedsMapping, OpenProgress,
+from workbench.tui.messages import (ActionDone, ActionFailed, LockTaken, OpenFailed, OpenNeedsChoice, OpenNeedsMapping, OpenProgress,
                        SessionReady)
 from workbench.tui.watching import Watching
 from workbench.tui.screens.bench import BenchScreen
@@ -127,8 +127,38 @@ class WorkbenchApp(Watching, Flows, App[int]):
         if msg.snapshot.readonly:
             self.notify(f"read-only: {safe(msg.snapshot.readonly_reason)}", markup=False, severity="warning",
                         timeout=10)
+            if msg.session.case.holder is not None:  # another session writes: try again until it lets go
+                self._lock_timer = self.set_interval(self.LOCK_RETRY_SECONDS, self.retry_lock, name="lock-retry")
         if self.watch_on_open:
             self.start_watch()
+
+    # -- waiting for another writer ---------------------------------------------------------
+
+    LOCK_RETRY_SECONDS = 3.0
+    """How often a read-only view of a case another session holds tries to take it over."""
+    _lock_timer = None
+
+    def retry_lock(self) -> None:
+        """Try (in a worker) to become the case's writer; the holder was named when it opened."""
+        if self.session is not None and self.snapshot is not None and self.snapshot.readonly and not self.busy:
+            self._take_lock()
+
+    @work(thread=True, exclusive=True, group="lock")
+    def _take_lock(self) -> None:
+        try:
+            taken = self.session.take_lock()
+        except WorkbenchError:
+            return
+        if taken:
+            self.post_message(LockTaken(self.session.snapshot()))
+
+    @on(LockTaken)
+    def lock_taken(self, msg: LockTaken) -> None:
+        if self._lock_timer is not None:
+            self._lock_timer.stop()
+            self._lock_timer = None
+        self.install_snapshot(msg.snapshot)
+        self.notify("The other session closed the case: it is yours to change now.", markup=False, timeout=8)
 
     # -- actions recorded -------------------------------------------------------------------
 

@@ -43,6 +43,13 @@ class SessionReady(Message):
 
 
 @dataclass
+class LockTaken(Message):
+    """The session that held the case closed it: this one now writes (``snapshot``: reloaded state)."""
+
+    snapshot: Any
+
+
+@dataclass
 class ActionDone(Message):
     """An action was recorded in the trail; ``change`` holds the new snapshot and a summary."""
 

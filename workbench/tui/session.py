@@ -206,6 +206,23 @@ class Session:
     def close(self) -> None:
         self.case.close()
 
+    def take_lock(self) -> bool:
+        """Try once to become the writer of a case that opened read-only because another session
+        held it; True when it is writable now (the state is reloaded: the other writer may have
+        added events)."""
+        with self.lock:
+            if self.case.holder is None or not self.case.readonly:
+                return False
+            fresh = Case.open(self.case.path, author=self.case.author)
+            if fresh.readonly:
+                self.case.readonly_reason, self.case.holder = fresh.readonly_reason, fresh.holder
+                fresh.close()
+                return False
+            self.case.close()
+            self.case = fresh
+            self.analysis = fresh.analyse(self.dataset)
+            return True
+
     # -- actions (each appends one event to the trail)
 
     def _limits_change(self, before: Analysis, title: str, extra: tuple[str, ...] = ()) -> Change:
