@@ -15,6 +15,7 @@ from workbench.core.charts import variables as C
 from workbench.core.charts import rules as R
 from workbench.core.charts.signals import SignalTable, group_firings
 from workbench.core.model import (
+    SortedExclusions,
     ATTRIBUTE_CHARTS, CHART_KINDS, SIGMA_METHOD_LABELS, Analysis, ChartResult, Dataset, Exclusion,
     FrozenLimits, Settings, Signal, WorkbenchError,
 )
@@ -214,7 +215,8 @@ def analyse(dataset: Dataset, settings: Settings = Settings(), exclusions: Itera
     Analysis
     """
     ds = dataset
-    excl = tuple(sorted(set(exclusions), key=lambda e: (e.subgroup, e.stream or "")))
+    excl = exclusions if isinstance(exclusions, SortedExclusions) else \
+        tuple(sorted(set(exclusions), key=lambda e: (e.subgroup, e.stream or "")))
     if ds.m == 0:
         raise WorkbenchError(f"{ds.path}: no subgroups to chart")
     chart = resolve_chart(ds, settings)

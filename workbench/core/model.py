@@ -233,6 +233,13 @@ class _LabelIndex:
         return int(loc) if isinstance(loc, (int, np.integer)) else None
 
 
+class SortedExclusions(tuple):
+    """Exclusions already sorted by (subgroup, stream) without repeats — a case's state keeps them so —
+    which ``analyse()`` takes as they are instead of sorting them again."""
+
+    __slots__ = ()
+
+
 @dataclass(frozen=True)
 class Spec:
     """Specification and capability settings."""

@@ -64,4 +64,25 @@ def test_a_builder_keeps_its_sorted_exclusions_without_sorting_again():
         prev = ev.hash
         b.state()
     # string order of labels, as exclusion_order defines it [definition]
-    assert [t.subgroup for _k, t in b.order] == ["1", "10", "10a", "9"]
+    assert [t.subgroup for t in b.order[1]] == ["1", "10", "10a", "9"]
+    assert b.order[0] == sorted(b.order[0])
+
+
+def test_a_case_state_s_sorted_exclusions_give_the_same_analysis_as_any_order():
+    # the reference is analyse() on the same exclusions in another order, sorted by analyse itself [definition]
+    import numpy as np
+
+    from workbench.core.analysis import analyse, limits_snapshot
+    from workbench.core.model import Dataset, Layout, Settings
+    rng = np.random.default_rng(5)
+    v = rng.normal(10, 1, (40, 3))
+    ds = Dataset(path="m.csv", sha256="0" * 64, rows=40, size_bytes=0, layout=Layout("wide"),
+                 labels=np.array([str(i) for i in range(1, 41)]), streams=("A", "B", "C"), values=v)
+    events = [seal(body(1, "created", {"settings": {}, "causes": [], "data_ref": "x"}), None)]
+    for i, (label, stream) in enumerate([("7", None), ("12", "B"), ("30", None), ("12", "A"), ("3", None)], 2):
+        events.append(seal(body(i, "exclude", {"subgroup": label, "stream": stream, "reason": "r"}), events[-1].hash))
+    st = replay(events)
+    a = analyse(ds, Settings(), st.exclusions)
+    b = analyse(ds, Settings(), list(reversed(st.exclusions)))
+    assert a.exclusions == b.exclusions and limits_snapshot(a) == limits_snapshot(b)
+    assert np.array_equal(a.excluded_cells, b.excluded_cells)

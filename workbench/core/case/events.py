@@ -18,7 +18,7 @@ from workbench.core.case.payload import (  # re-exported: these helpers used to 
     describe_trail, exclusion_from_payload, exclusion_order, exclusion_payload, frozen_from_dict, printable,
     settings_changes, settings_from_dict, utc_now,
 )
-from workbench.core.model import Exclusion, FrozenLimits, Settings, WorkbenchError
+from workbench.core.model import Exclusion, FrozenLimits, Settings, SortedExclusions, WorkbenchError
 
 __all__ = [
     "DEFAULT_CAUSES", "EVENT_KINDS", "FORMAT", "LIMIT_EVENTS", "MARKS", "NOTE_KINDS", "VERSION", "CaseState",
@@ -223,8 +223,8 @@ class _Builder:
     seen: dict | None = None
     retracted: dict = field(default_factory=dict)
     trail: list = field(default_factory=list)
-    order: list | None = None
-    """(exclusion_order, Exclusion) kept sorted as exclusions come and go (None: sort at the next state)."""
+    order: tuple[list, list] | None = None
+    """(exclusion_order keys, Exclusions) kept sorted as exclusions come and go (None: sort at the next state)."""
 
     @classmethod
     def of(cls, s: CaseState) -> "_Builder":
@@ -234,30 +234,34 @@ class _Builder:
                    dict(targets) if targets is not None else {e.key: e for e in s.exclusions}, list(s.notes),
                    dict(s.signal_states), s.frozen, s.causes, s.first_limits, s.limits, s.head_hash, s.seq,
                    s.created_by, s.created_time, dict(s.seen) if s.seen else None, dict(s.retracted), list(s.trail),
-                   list(order) if order is not None else None)
+                   (list(order[0]), list(order[1])) if order is not None else None)
 
     def state(self) -> CaseState:
-        if self.order is None or len(self.order) != len(self.targets):
-            self.order = sorted(((exclusion_order(t), t) for t in self.targets.values()), key=lambda x: x[0])
-        st = CaseState(self.settings, tuple(t for _k, t in self.order), dict(self.info),
+        if self.order is None or len(self.order[0]) != len(self.targets):
+            pairs = sorted(((exclusion_order(t), t) for t in self.targets.values()), key=lambda x: x[0])
+            self.order = ([k for k, _t in pairs], [t for _k, t in pairs])
+        st = CaseState(self.settings, SortedExclusions(self.order[1]), dict(self.info),
                        tuple(self.notes), dict(self.marks), self.frozen, tuple(self.causes), self.first_limits,
                        self.limits, self.head, self.seq, self.created_by, self.created_time, self.seen,
                        dict(self.retracted), tuple(self.trail))
         # what of() needs to go on from this state without a Python-level pass over the exclusions
         object.__setattr__(st, "_targets", dict(self.targets))
-        object.__setattr__(st, "_order", list(self.order))
+        object.__setattr__(st, "_order", (list(self.order[0]), list(self.order[1])))
         return st
 
     def _add(self, target: Exclusion) -> None:
         self.targets[target.key] = target
         if self.order is not None:
             key = exclusion_order(target)
-            self.order.insert(bisect.bisect_left(self.order, key, key=lambda x: x[0]), (key, target))
+            i = bisect.bisect_left(self.order[0], key)
+            self.order[0].insert(i, key)
+            self.order[1].insert(i, target)
 
     def _remove(self, key: str) -> None:
         target = self.targets.pop(key)
         if self.order is not None:
-            del self.order[bisect.bisect_left(self.order, exclusion_order(target), key=lambda x: x[0])]
+            i = bisect.bisect_left(self.order[0], exclusion_order(target))
+            del self.order[0][i], self.order[1][i]
 
     def apply(self, ev: Event, replaying: bool = False) -> None:
         where, p = f"event {ev.seq}", ev.payload
