@@ -83,8 +83,12 @@ def cmd_report(args: argparse.Namespace) -> int:
             return _report_case_without_data(case, args, status.message)
         ds = case.load_dataset()
         a = case.analyse(ds)
-        states = case.state.signal_states
-        state_of = case.state.signal_state
+        from workbench.core.case.answers import statuses
+        states = statuses(a, case.state)  # answers kept against firing points, not labels
+
+        def state_of(key: str) -> str:
+            st = states.get(key)
+            return st.state if st is not None else "open"
         fmt_name = args.format
         text = render(a, fmt_name, states, args.points)
         if fmt_name == "json":

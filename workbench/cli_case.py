@@ -146,13 +146,14 @@ def cmd_mark(args: argparse.Namespace) -> int:
         ds = case.load_dataset()
         span = parse_range(ds, args.key)
         if span is not None:
-            mark_many(case, signals_in(case.analyse(ds), *span), args.state, args.note, span=(ds, *span))
+            a = case.analyse(ds)
+            mark_many(case, signals_in(a, *span), args.state, args.note, span=(ds, *span), analysis=a)
             return _done(case)
         if args.key not in case.state.signal_states:
             keys = {s.key for s in case.analyse(ds).signals}
             if args.key not in keys:
                 raise WorkbenchError(f"no signal {args.key!r} in this case (workbench report {args.case} lists them)")
-        case.mark_signal(args.key, args.state, args.note)
+        case.record_mark(ds, args.key, args.state, args.note)
         return _done(case)
 
 

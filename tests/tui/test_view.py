@@ -68,8 +68,12 @@ class _State:
     """The parts of a CaseState the views read."""
 
     def __init__(self, marks=None, exclusions=()):
+        from workbench.core.case.events import SignalState
         self.marks, self.exclusions = marks or {}, tuple(exclusions)
         self.exclusion_info, self.notes, self.frozen = {}, (), None
+        # marks as an older case file holds them: by key, without firing points
+        self.signal_states = {k: SignalState(v, None, "tester", "", i + 2) for i, (k, v) in enumerate(self.marks.items())}
+        self.mark_log = tuple(self.signal_states.items())
 
     def signal_state(self, key):
         return self.marks.get(key, "open")

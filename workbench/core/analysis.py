@@ -447,7 +447,7 @@ def open_signals(analysis: Analysis, states: dict[str, Any] | None = None) -> li
     for s in analysis.signals:
         st = states.get(s.key)
         st = getattr(st, "state", st)
-        if st in ("explained", "no-cause-found"):
+        if st in ("explained", "no-cause-found", "excluded"):
             continue
         out.append(s)
     return out

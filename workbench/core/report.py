@@ -59,11 +59,23 @@ def signal_json(a: Analysis, s, states: dict | None = None) -> dict[str, Any]:
            "last": s.last, "points": list(s.points), "fired": list(s.fired),
            "subgroups": [str(labels[p]) for p in s.points]}
     if states is not None:
-        st = states.get(s.key)
-        out["state"] = getattr(st, "state", st) or "open"
+        _state_json(out, states.get(s.key))
     if a.phase2_start is not None:
         out["phase"] = 2 if s.last >= a.phase2_start else 1
     return out
+
+
+def _state_json(d: dict[str, Any], st: Any) -> None:
+    """``state``, and for a signal some of whose firing points were answered ``answered`` (how many),
+    ``answer`` (how) and ``state_words`` (``explained 1 of 4 firing points — 3 new``)."""
+    d["state"] = getattr(st, "state", st) or "open"
+    if getattr(st, "partial", False):
+        d["answered"], d["answer"], d["state_words"] = st.answered, st.answer, st.words()
+
+
+def _state_words(st: Any) -> str:
+    words = getattr(st, "words", None)
+    return words() if callable(words) else (getattr(st, "state", st) or "open")
 
 
 def signals_json(a: Analysis, states: dict | None = None) -> list[dict[str, Any]]:
@@ -75,8 +87,7 @@ def signals_json(a: Analysis, states: dict | None = None) -> list[dict[str, Any]
     start = a.phase2_start
     for d in out:
         if states is not None:
-            st = states.get(d["key"])
-            d["state"] = getattr(st, "state", st) or "open"
+            _state_json(d, states.get(d["key"]))
         if start is not None:
             d["phase"] = 2 if d["last"] >= start else 1
     return out
@@ -193,8 +204,7 @@ def report_text(a: Analysis, states: dict | None = None, width: int = 100) -> st
     for s in a.signals[:MAX_TEXT_SIGNALS]:
         st = ""
         if states is not None:
-            v = states.get(s.key)
-            st = f"  [{getattr(v, 'state', v) or 'open'}]"
+            st = f"  [{_state_words(states.get(s.key))}]"
         span = ds.labels[s.first] if s.first == s.last else f"{ds.labels[s.first]} … {ds.labels[s.last]}"
         L.append(f"  {s.chart:<5} {s.rule:<14} {_p(span)}  — {s.description}{st}")
     if len(a.signals) > MAX_TEXT_SIGNALS:
@@ -265,8 +275,7 @@ def report_markdown(a: Analysis, states: dict | None = None) -> str:
     if a.signals:
         L += ["| chart | rule | subgroups | state | description |", "|---|---|---|---|---|"]
         for s in a.signals:
-            v = (states or {}).get(s.key)
-            state = getattr(v, "state", v) or "open"
+            state = _state_words((states or {}).get(s.key))
             span = ds.labels[s.first] if s.first == s.last else f"{ds.labels[s.first]} … {ds.labels[s.last]}"
             L.append(f"| {s.chart} | {s.rule} | {esc(span)} | {state} | {s.description} |")
     else:

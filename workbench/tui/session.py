@@ -258,7 +258,7 @@ class Session:
 
     def mark(self, key: str, state: str, note: str | None) -> Change:
         before = self.snapshot().marks
-        self.case.mark_signal(key, state, note or None)
+        self.case.record_mark(self.dataset, key, state, note or None)
         snap = self.snapshot()
         lines = (f"open signals {before.open_count} → {snap.marks.open_count}",
                  "the limits do not change (the points stay in)")

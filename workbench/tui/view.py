@@ -11,6 +11,7 @@ from typing import Any
 
 import numpy as np
 
+from workbench.core.case.answers import STATE_WORDS  # the same words in every view
 from workbench.core.case.events import printable
 from workbench.core.model import Analysis, Signal
 from workbench.core.text import change_texts, fmt
@@ -19,8 +20,7 @@ NORMAL, OPEN, REVIEWED, EXCLUDED = 0, 1, 2, 3
 """Point classes drawn with their own glyphs: in control, open signal, explained or no cause found,
 left out of the limits."""
 
-STATE_WORDS = {"open": "open", "explained": "explained", "no-cause-found": "no cause found",
-               "excluded": "excluded"}
+
 
 
 def safe(text: Any) -> str:
@@ -64,17 +64,20 @@ class Marks:
     codes: dict[str, np.ndarray]
     """Chart name -> uint8 class per subgroup (NORMAL, OPEN, REVIEWED, EXCLUDED)."""
     rows: tuple[SignalRow, ...]
-    """Signals list: current signals by position, then those answered by an exclusion."""
+    """Signals list: current signals by first firing point, then chart, then rule — the order of n / N
+    and of the list — then those answered by an exclusion."""
     current: int
     """Number of rows that are current signals (the first ``current`` rows)."""
+    anchors: np.ndarray
+    """Anchor (first firing point) of each current row, in list order (sorted)."""
+    open_mask: np.ndarray
+    """Per current row: the signal is open."""
+    by_first: np.ndarray
+    """Current row indices ordered by first position (to find the rows covering a position)."""
     firsts: np.ndarray
-    """First position of each current row (sorted)."""
+    """First position of each entry of ``by_first`` (sorted)."""
     lasts_max: np.ndarray
-    """Running maximum of the last positions (to find the signals that cover a position)."""
-    open_anchors: np.ndarray
-    """Sorted anchor positions of open signals."""
-    open_rows: np.ndarray
-    """Row index of each entry of ``open_anchors``."""
+    """Running maximum of the last positions along ``by_first``."""
     open_count: int
     explained_count: int
     no_cause_count: int
@@ -82,25 +85,39 @@ class Marks:
     """Exclusions in force (subgroups and readings)."""
 
     def row_at(self, position: int) -> int | None:
-        """The current signal row covering ``position`` (the latest-starting one), or None."""
-        i = int(np.searchsorted(self.firsts, position, side="right")) - 1
-        while i >= 0 and self.lasts_max[i] >= position:
-            r = self.rows[i]
+        """The current row for ``position``: the first row (in list order) whose rule first fired there,
+        else the latest-starting row covering it, else None."""
+        i = int(np.searchsorted(self.anchors, position, side="left"))
+        if i < self.current and self.anchors[i] == position:
+            return i
+        j = int(np.searchsorted(self.firsts, position, side="right")) - 1
+        while j >= 0 and self.lasts_max[j] >= position:
+            r = self.rows[int(self.by_first[j])]
             if r.first <= position <= r.last:
-                return i
-            i -= 1
+                return int(self.by_first[j])
+            j -= 1
         return None
 
-    def next_open(self, position: int, step: int) -> int | None:
-        """Row of the next (step 1) or previous (step -1) open signal after / before ``position``."""
-        a = self.open_anchors
-        if a.size == 0:
-            return None
+    def next_open(self, position: int, step: int, selected: int | None = None) -> int | None:
+        """The next (step 1) or previous (step -1) open row in the list's order.
+
+        From the selected row, when the cursor stands on its anchor, the open rows after (before) it, so
+        that signals firing first at the same subgroup are all visited; else the first open row anchored
+        after ``position`` (the last anchored before it).  Never skips a row."""
+        n = self.current
+        if selected is not None and 0 <= selected < n and self.anchors[selected] == position:
+            start = selected + step
+        elif step > 0:
+            start = int(np.searchsorted(self.anchors, position, side="right"))
+        else:
+            start = int(np.searchsorted(self.anchors, position, side="left")) - 1
         if step > 0:
-            i = int(np.searchsorted(a, position, side="right"))
-            return int(self.open_rows[i]) if i < a.size else None
-        i = int(np.searchsorted(a, position, side="left")) - 1
-        return int(self.open_rows[i]) if i >= 0 else None
+            hits = np.flatnonzero(self.open_mask[start:]) if start < n else np.empty(0, np.int64)
+            return int(start + hits[0]) if hits.size else None
+        if start < 0:
+            return None
+        hits = np.flatnonzero(self.open_mask[:start + 1])
+        return int(hits[-1]) if hits.size else None
 
 
 def _span(labels: np.ndarray, s: Signal) -> str:
@@ -113,22 +130,31 @@ _KEY = re.compile(r"^(?P<chart>[^/]+)/(?P<rule>[^/]+)/(?P<label>.*)$")
 
 
 def marks_for(a: Analysis, state: Any) -> Marks:
-    """Point classes and the signals list for an analysis under a case state (O(series))."""
+    """Point classes and the signals list for an analysis under a case state (O(series)).
+
+    A signal's state comes from the answers given to its firing points
+    (:mod:`workbench.core.case.answers`), so a run that grew is open until its new points are answered."""
+    from workbench.core.case.answers import STATE_WORDS as WORDS, split_key, statuses
     labels = a.dataset.labels
     codes: dict[str, np.ndarray] = {}
     for c in a.charts:
         codes[c.name] = np.zeros(a.dataset.m, np.uint8)
+    now = statuses(a, state) if state is not None else {}
     rows: list[SignalRow] = []
     counts = {"open": 0, "explained": 0, "no-cause-found": 0, "excluded": 0}
     reviewed: list[Signal] = []
     opened: list[Signal] = []
     for s in a.signals:
-        st = state.signal_state(s.key) if state is not None else "open"
+        status = now.get(s.key)
+        st = status.state if status is not None else "open"
         counts[st] = counts.get(st, 0) + 1
         anchor = s.fired[0] if s.fired else s.first
         rows.append(SignalRow(s.key, s.chart, s.rule, s.description, s.first, s.last, anchor, _span(labels, s),
-                              safe(labels[s.first]), s.last - s.first + 1, st))
+                              safe(labels[s.first]), s.last - s.first + 1, st,
+                              status.words() if status is not None else "",
+                              status.short_words() if status is not None else ""))
         (opened if st == "open" else reviewed).append(s)
+    rows.sort(key=lambda r: (r.anchor, r.chart, r.rule))
     for s in reviewed:
         if s.chart in codes:
             codes[s.chart][list(s.points)] = REVIEWED
@@ -142,28 +168,28 @@ def marks_for(a: Analysis, state: Any) -> Marks:
     if state is not None:
         from workbench.core.charts.rules import resolve
         words = {rid: resolve("nelson").rule(rid).words for rid in resolve("nelson").ids}
-        for info in state.exclusion_info.values():
-            key = info.signal
-            if not key or key in live:
-                continue
-            live.add(key)
-            m = _KEY.match(key)
-            chart, rule, label = (m["chart"], m["rule"], m["label"]) if m else ("?", key, "")
-            try:
-                where = a.dataset.index_of(label)
-            except Exception:  # the label is not in these data (e.g. a changed file)
-                where = -1
-            rows.append(SignalRow(key, chart, rule, words.get(rule, rule), -1, -1, where, safe(label), safe(label), 0,
-                                  "excluded"))
+        for ex_key, info in state.exclusion_info.items():
+            keys = [k for k, _ in info.answers] if info.answers is not None else [info.signal, *info.signals]
+            for key in keys:
+                if not key or key in live:
+                    continue
+                live.add(key)
+                chart, rule, label = split_key(key)
+                try:
+                    where = a.dataset.index_of(label)
+                except Exception:  # the label is not in these data (e.g. a changed file)
+                    where = a.dataset._label_index().get(ex_key.split(":")[0]) or -1
+                rows.append(SignalRow(key, chart or "?", rule, words.get(rule, rule), -1, -1, where, safe(label),
+                                      safe(label), 0, "excluded", WORDS["excluded"], WORDS["excluded"]))
+    anchors = np.array([r.anchor for r in rows[:current]], dtype=np.int64)
     firsts = np.array([r.first for r in rows[:current]], dtype=np.int64)
     lasts = np.array([r.last for r in rows[:current]], dtype=np.int64)
-    open_idx = [i for i, r in enumerate(rows[:current]) if r.state == "open"]
-    anchors = np.array([rows[i].anchor for i in open_idx], dtype=np.int64)
-    order = np.argsort(anchors, kind="stable")
+    by_first = np.argsort(firsts, kind="stable")
     return Marks(
-        codes=codes, rows=tuple(rows), current=current, firsts=firsts,
-        lasts_max=np.maximum.accumulate(lasts) if lasts.size else lasts,
-        open_anchors=anchors[order], open_rows=np.array(open_idx, dtype=np.int64)[order],
+        codes=codes, rows=tuple(rows), current=current, anchors=anchors,
+        open_mask=np.array([r.state == "open" for r in rows[:current]], dtype=bool),
+        by_first=by_first, firsts=firsts[by_first],
+        lasts_max=np.maximum.accumulate(lasts[by_first]) if lasts.size else lasts,
         open_count=counts["open"], explained_count=counts["explained"],
         no_cause_count=counts["no-cause-found"],
         excluded_count=len(state.exclusions) if state is not None else int(a.excluded_subgroups.sum()))

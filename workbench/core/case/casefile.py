@@ -325,9 +325,21 @@ class Case:
         on = on or ("case" if not target else "subgroup")
         return self._append("note", {"on": on, "target": target or "", "text": _text(text)}, author)
 
-    def mark_signal(self, key: str, state: str, note: str | None = None, author: str | None = None) -> Event:
-        """Mark a signal explained, no-cause-found or open."""
-        return self._append("signal", {"key": key, "state": state, "note": _text(note) if note else None}, author)
+    def mark_signal(self, key: str, state: str, note: str | None = None, author: str | None = None,
+                    fired: list[str] | None = None) -> Event:
+        """Mark a signal explained, no-cause-found or open; ``fired``: the labels of the firing points the
+        mark is given for (see :mod:`workbench.core.case.answers`)."""
+        payload = {"key": key, "state": state, "note": _text(note) if note else None}
+        if fired is not None:
+            payload["fired"] = {key: list(fired)}
+        return self._append("signal", payload, author)
+
+    def record_mark(self, dataset: Dataset, key: str, state: str, note: str | None = None,
+                    author: str | None = None) -> Event:
+        """Mark a signal against its current firing points (what a later grown run is compared with)."""
+        from workbench.core.case.answers import fired_for
+        fired = fired_for(self.analyse(dataset), self.state, [key])
+        return self.mark_signal(key, state, note, author, fired[key] if fired else None)
 
     def _check_changed(self, settings: Settings) -> None:
         if settings_from_dict(json.loads(canonical_json(jsonable(settings.as_dict()))), "setup") == self.state.settings:
@@ -405,7 +417,10 @@ class Case:
         before = self.analyse(dataset)
         if signal and signal not in {s.key for s in before.signals}:
             raise WorkbenchError(f"no current signal {signal!r} (signal keys look like xbar/beyond-limits/LABEL)")
-        return self._record(dataset, "exclude", _exclude_payload(target, reason, cause, signal), author, before)
+        from workbench.core.case.answers import exclusion_answers
+        payload = _exclude_payload(target, reason, cause, signal)
+        payload["answers"] = exclusion_answers(before, self.state, target, signal)
+        return self._record(dataset, "exclude", payload, author, before)
 
     def record_restore(self, dataset: Dataset, target: Exclusion, reason: str, author: str | None = None) -> Analysis:
         return self._record(dataset, "restore", {**exclusion_payload(target), "reason": _text(reason)}, author)

@@ -133,6 +133,9 @@ class ExclusionInfo:
     """The exclude event."""
     signals: tuple[str, ...] = ()
     """Further signals answered (a range exclusion answers every signal in its range)."""
+    answers: tuple[tuple[str, tuple[str, ...]], ...] | None = None
+    """(signal key, the labels of its firing points this exclusion answers), as recorded; None in older
+    case files, whose ``signal`` / ``signals`` answer by key (see :mod:`workbench.core.case.answers`)."""
 
 
 @dataclass(frozen=True)
@@ -159,6 +162,9 @@ class SignalState:
     author: str
     time: str
     seq: int = 0
+    fired: tuple[str, ...] | None = None
+    """Labels of the firing points the mark was given for; None in older case files (the mark then
+    answers the current signal with its key)."""
 
 
 @dataclass(frozen=True)
@@ -196,6 +202,9 @@ class CaseState:
     """Number of a retracted event -> number of the ``retract`` event that took it back."""
     trail: tuple = field(default=(), repr=False, compare=False)
     """The events replayed so far (a retraction replays them without the retracted one)."""
+    mark_log: tuple = field(default=(), repr=False, compare=False)
+    """Every mark in force, in trail order: (signal key, SignalState) — answers are per firing point, so
+    a later mark of another key can answer some of the same points."""
 
     def signal_state(self, key: str) -> str:
         """open | explained | no-cause-found | excluded (an exclusion answers it)."""
@@ -225,6 +234,7 @@ class _Builder:
     trail: list = field(default_factory=list)
     order: tuple[list, list] | None = None
     """(exclusion_order keys, Exclusions) kept sorted as exclusions come and go (None: sort at the next state)."""
+    mark_log: list = field(default_factory=list)
 
     @classmethod
     def of(cls, s: CaseState) -> "_Builder":
@@ -234,7 +244,7 @@ class _Builder:
                    dict(targets) if targets is not None else {e.key: e for e in s.exclusions}, list(s.notes),
                    dict(s.signal_states), s.frozen, s.causes, s.first_limits, s.limits, s.head_hash, s.seq,
                    s.created_by, s.created_time, dict(s.seen) if s.seen else None, dict(s.retracted), list(s.trail),
-                   (list(order[0]), list(order[1])) if order is not None else None)
+                   (list(order[0]), list(order[1])) if order is not None else None, list(s.mark_log))
 
     def state(self) -> CaseState:
         if self.order is None or len(self.order[0]) != len(self.targets):
@@ -243,7 +253,7 @@ class _Builder:
         st = CaseState(self.settings, SortedExclusions(self.order[1]), dict(self.info),
                        tuple(self.notes), dict(self.marks), self.frozen, tuple(self.causes), self.first_limits,
                        self.limits, self.head, self.seq, self.created_by, self.created_time, self.seen,
-                       dict(self.retracted), tuple(self.trail))
+                       dict(self.retracted), tuple(self.trail), tuple(self.mark_log))
         # what of() needs to go on from this state without a Python-level pass over the exclusions
         object.__setattr__(st, "_targets", dict(self.targets))
         object.__setattr__(st, "_order", (list(self.order[0]), list(self.order[1])))
@@ -304,11 +314,13 @@ class _Builder:
                     raise WorkbenchError(f"{where}: cause {cause!r} is not in the cause list "
                                          f"({', '.join(self.causes)})")
                 answered = tuple(span["signals"]) if span is not None else ()
+                answers = _answers(p, where)
                 for target in targets:
                     if target.key in self.targets:
                         raise WorkbenchError(f"{where}: {target.key} is already excluded")
                     self._add(target)
-                    self.info[target.key] = ExclusionInfo(reason, cause, signal, ev.author, ev.time, ev.seq, answered)
+                    self.info[target.key] = ExclusionInfo(reason, cause, signal, ev.author, ev.time, ev.seq, answered,
+                                                          answers)
         elif k == "note":
             kind = _str(p.get("on"), where, "on")
             if kind not in NOTE_KINDS:
@@ -335,8 +347,12 @@ class _Builder:
             if "range" in p:
                 range_from_payload(p, where)
             note = _opt_str(p.get("note"), where, "note")
+            fired = dict(_answers(p, where, "fired") or ())
+            if fired and set(fired) != set(keys):
+                raise WorkbenchError(f"{where}: fired must give the firing points of each marked signal")
             for one in keys:
-                self.marks[one] = SignalState(mark, note, ev.author, ev.time, ev.seq)
+                self.marks[one] = SignalState(mark, note, ev.author, ev.time, ev.seq, fired.get(one))
+                self.mark_log.append((one, self.marks[one]))
         elif k == "repair":
             _str(p.get("reason"), where, "reason", empty=False)
             found = p.get("found")
@@ -410,7 +426,19 @@ class _Builder:
         self.settings, self.info, self.targets, self.notes = fresh.settings, fresh.info, fresh.targets, fresh.notes
         self.order = None
         self.marks, self.frozen, self.causes, self.seen = fresh.marks, fresh.frozen, fresh.causes, fresh.seen
+        self.mark_log = fresh.mark_log
         self.retracted[seq] = ev.seq
+
+
+def _answers(p: Mapping[str, Any], where: str, name: str = "answers") -> tuple[tuple[str, tuple[str, ...]], ...] | None:
+    """``{signal key: [firing-point labels]}`` of a payload, checked (None when there is none)."""
+    v = p.get(name)
+    if v is None:
+        return None
+    if not isinstance(v, dict) or not all(isinstance(k, str) and k and isinstance(x, list)
+                                          and all(isinstance(lab, str) for lab in x) for k, x in v.items()):
+        raise WorkbenchError(f"{where}: {name} must map signal keys to lists of subgroup labels")
+    return tuple((k, tuple(x)) for k, x in v.items())
 
 
 def range_from_payload(p: Mapping[str, Any], where: str) -> dict | None:
@@ -442,10 +470,10 @@ _PAYLOAD_KEYS = {
     "created": ({"settings", "causes", "data_ref"}, set()),
     "settings": ({"settings"}, set()),
     "causes": ({"causes"}, set()),
-    "exclude": ({"subgroup", "reason"}, {"stream", "cause", "signal", "range"}),
+    "exclude": ({"subgroup", "reason"}, {"stream", "cause", "signal", "range", "answers"}),
     "restore": ({"subgroup", "reason"}, {"stream", "range"}),
     "note": ({"on", "target", "text"}, {"range"}),
-    "signal": ({"key", "state"}, {"note", "keys", "range"}),
+    "signal": ({"key", "state"}, {"note", "keys", "range", "fired"}),
     "freeze": ({"frozen"}, set()),
     "unfreeze": ({"reason"}, set()),
     "data-appended": ({"subgroups", "rows", "size_bytes", "sha256"}, {"signals"}),

@@ -147,13 +147,14 @@ def describe(ev: Event) -> str:
     p, q = ev.payload, lambda s: printable(s) if isinstance(s, str) else str(s)
     if ev.kind in ("exclude", "restore") and p.get("range"):
         r = p["range"]
-        extra = "".join(f"; {name} {q(p[name])}" for name in ("cause",) if p.get(name))
+        extra = "".join(f"; {name} {q(p[name])}" for name in ("cause",) if p.get(name)) + _answered(p, q)
         return (f"{'excluded' if ev.kind == 'exclude' else 'restored'} subgroups {q(r['first'])}..{q(r['last'])} "
                 f"({r['count']} subgroup{'s' if r['count'] != 1 else ''}): {q(p['reason'])}{extra}")
     if ev.kind in ("exclude", "restore"):
         what = ("reading " if p.get("stream") is not None else "subgroup ") + q(
             p["subgroup"] if p.get("stream") is None else f"{p['subgroup']}:{p['stream']}")
-        extra = "".join(f"; {name} {q(p[name])}" for name in ("cause", "signal") if p.get(name))
+        names = ("cause",) if isinstance(p.get("answers"), dict) else ("cause", "signal")
+        extra = "".join(f"; {name} {q(p[name])}" for name in names if p.get(name)) + _answered(p, q)
         return f"{'excluded' if ev.kind == 'exclude' else 'restored'} {what}: {q(p['reason'])}{extra}"
     if ev.kind == "note" and p.get("range"):
         r = p["range"]
@@ -187,6 +188,18 @@ def describe(ev: Event) -> str:
         return (f"new data judged: {p['subgroups']} subgroups, {p['rows']} rows, {p['size_bytes']} bytes"
                 + (f"; new signals {', '.join(q(k) for k in sig)}" if sig else "; no new signal"))
     return "case created"
+
+
+def _answered(p: dict, q) -> str:
+    """``; answers xbar/zone-b/08:00 (1 of its firing points), r/…`` — every signal an exclusion answers."""
+    answers = p.get("answers")
+    if not isinstance(answers, dict) or not answers:
+        return ""
+    parts = []
+    for key, labs in answers.items():
+        n = len(labs) if isinstance(labs, list) else 0
+        parts.append(f"{q(key)} ({n} firing point{'s' if n != 1 else ''})" if n else f"{q(key)} (no firing point)")
+    return "; answers " + ", ".join(parts)
 
 
 def describe_trail(events: Iterable[Event]) -> list[str]:

@@ -74,8 +74,12 @@ def exclude_range(case: "Case", ds: Dataset, first: int, last: int, reason: str,
     if not labels:
         raise WorkbenchError(f"every subgroup of {ds.labels[first]}..{ds.labels[last]} is already excluded")
     before = case.analyse(ds)
+    from workbench.core.case.answers import exclusion_answers
+    from workbench.core.model import Exclusion
+    positions = [first + i for i, x in enumerate(ds.labels[first:last + 1]) if str(x) not in done]
     payload = {"subgroup": labels[0], "stream": None, "reason": _text(reason, "a reason"), "cause": cause,
-               "signal": None, "range": _span(ds, first, last, labels, signals=signals_in(before, first, last))}
+               "signal": None, "range": _span(ds, first, last, labels, signals=signals_in(before, first, last)),
+               "answers": exclusion_answers(before, case.state, Exclusion(labels[0]), positions=positions)}
     return case._record(ds, "exclude", payload, author, before)
 
 
@@ -100,14 +104,19 @@ def note_range(case: "Case", ds: Dataset, first: int, last: int, text: str, auth
 
 
 def mark_many(case: "Case", keys: list[str], state: str, note: str | None = None, author: str | None = None,
-              span: tuple[Dataset, int, int] | None = None) -> Event:
-    """Mark several signals at once (one event); ``span`` names the range they were chosen by."""
+              span: tuple[Dataset, int, int] | None = None, analysis: Analysis | None = None) -> Event:
+    """Mark several signals at once (one event); ``span`` names the range they were chosen by; with the
+    ``analysis`` the mark records each signal's firing points (see :mod:`workbench.core.case.answers`)."""
+    from workbench.core.case.answers import fired_for
     keys = list(dict.fromkeys(keys))
     if not keys:
         raise WorkbenchError("no signal to mark" + (" in that range" if span else ""))
     payload: dict = {"key": keys[0], "state": state, "note": _text(note, "a note") if note else None}
     if len(keys) > 1 or span is not None:
         payload["keys"] = keys
+    fired = fired_for(analysis, case.state, keys)
+    if fired is not None:
+        payload["fired"] = fired
     if span is not None:
         ds, first, last = span
         payload["range"] = _span(ds, first, last, [str(x) for x in ds.labels[first:last + 1]])

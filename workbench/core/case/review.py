@@ -42,20 +42,28 @@ def _limit_rows(first: dict | None, now: dict | None) -> list[tuple[str, str, st
 
 
 def _signal_rows(state: CaseState, analysis: Analysis | None) -> tuple[list[dict], int]:
-    """One dict per signal worth listing, and how many open signals were left out of the list."""
+    """One dict per signal worth listing, and how many open signals were left out of the list.
+
+    A current signal's state comes from the answers given to its firing points
+    (:mod:`workbench.core.case.answers`): a run that grew reads e.g. ``explained 1 of 4 firing points —
+    3 new`` and counts as open."""
+    from workbench.core.case.answers import statuses
     rows, hidden = [], 0
     seen = set()
     signals = analysis.signals if analysis is not None else ()
+    now = statuses(analysis, state)
     for s in signals:
         seen.add(s.key)
-        st = state.signal_state(s.key)
-        if st == "open" and len(signals) > MAX_SIGNAL_ROWS:
+        st = now.get(s.key)
+        if (st is None or st.state == "open") and len(signals) > MAX_SIGNAL_ROWS:
             hidden += 1
             continue
         labels = analysis.dataset.labels
         span = str(labels[s.first]) if s.first == s.last else f"{labels[s.first]} … {labels[s.last]}"
-        rows.append({"key": s.key, "subgroups": span, "detected": True,
-                     **_state_fields(state, s.key)})
+        fields = ({"state": "open", "words": "open", "by": None, "time": None, "note": None, "seq": None}
+                  if st is None else {"state": st.state, "words": st.words(), "by": st.author, "time": st.time,
+                                      "note": st.note, "seq": st.seq})
+        rows.append({"key": s.key, "subgroups": span, "detected": True, **fields})
     for key in state.signal_states:
         if key not in seen:
             seen.add(key)
@@ -63,22 +71,25 @@ def _signal_rows(state: CaseState, analysis: Analysis | None) -> tuple[list[dict
     # signals answered by an exclusion: the excluded points left the rule sequences, so the signal is
     # no longer detected, but the review lists it with the exclusion that answered it
     for ex_key, info in state.exclusion_info.items():
-        if info.signal and info.signal not in seen:
-            seen.add(info.signal)
-            rows.append({"key": info.signal, "subgroups": ex_key, "detected": False,
-                         **_state_fields(state, info.signal)})
+        keys = [k for k, _labs in info.answers] if info.answers is not None else [info.signal, *info.signals]
+        for key in keys:
+            if key and key not in seen:
+                seen.add(key)
+                rows.append({"key": key, "subgroups": ex_key, "detected": False, "state": "excluded",
+                             "words": "excluded", "by": info.author, "time": info.time, "note": info.reason,
+                             "seq": info.seq})
     return rows, hidden
 
 
 def _state_fields(state: CaseState, key: str) -> dict[str, Any]:
     st = state.signal_state(key)
     if st == "excluded":
-        info = next(i for i in state.exclusion_info.values() if i.signal == key)
-        return {"state": st, "by": info.author, "time": info.time, "note": info.reason, "seq": info.seq}
+        info = next(i for i in state.exclusion_info.values() if i.signal == key or key in i.signals)
+        return {"state": st, "words": st, "by": info.author, "time": info.time, "note": info.reason, "seq": info.seq}
     mark = state.signal_states.get(key)
     if mark is None:
-        return {"state": st, "by": None, "time": None, "note": None, "seq": None}
-    return {"state": st, "by": mark.author, "time": mark.time, "note": mark.note, "seq": mark.seq}
+        return {"state": st, "words": st, "by": None, "time": None, "note": None, "seq": None}
+    return {"state": st, "words": st, "by": mark.author, "time": mark.time, "note": mark.note, "seq": mark.seq}
 
 
 def _setup_rows(settings: Settings) -> list[tuple[str, str]]:
@@ -147,7 +158,7 @@ def case_report_markdown(case: Case, analysis: Analysis | None = None, verificat
         L += ["| signal | subgroups | state | set by | time | note or reason |", "|---|---|---|---|---|---|"]
         for r in rows:
             where = md(r["subgroups"]) if r["detected"] else "no longer detected"
-            L.append(f"| {md(r['key'])} | {where} | {r['state']} | {md(r['by'] or '—')} | {md(r['time'] or '—')} | "
+            L.append(f"| {md(r['key'])} | {where} | {md(r['words'])} | {md(r['by'] or '—')} | {md(r['time'] or '—')} | "
                      f"{md(r['note'] or '—')} |")
     else:
         L.append("No signals." if analysis is not None else "No signal has a state yet.")
@@ -191,13 +202,14 @@ def case_report_text(case: Case, analysis: Analysis | None = None, verification:
         extra = "".join(f"; {k} {p(x)}" for k, x in (("cause", i.cause), ("signal", i.signal)) if x)
         L.append(f"  {p(ex.key)}: {p(i.reason)}{extra}  — {p(i.author)}, {p(i.time)} (event {i.seq})")
     rows, hidden = _signal_rows(st, analysis)
-    marked = [r for r in rows if r["state"] != "open"]
-    open_count = f", {len(rows) - len(marked) + hidden} open" if analysis is not None else ""
+    marked = [r for r in rows if r["state"] != "open" or r["words"] != "open"]
+    open_n = sum(1 for r in rows if r["state"] == "open") + hidden
+    open_count = f", {open_n} open" if analysis is not None else ""
     L.append(f"signals   {len(marked)} with a state{open_count}")
     for r in marked:
         gone = "" if r["detected"] else " (no longer detected)"
         note = f": {p(r['note'])}" if r["note"] else ""
-        L.append(f"  {p(r['key'])} {r['state']}{gone}{note}  — {p(r['by'] or '')}")
+        L.append(f"  {p(r['key'])} {r['words']}{gone}{note}  — {p(r['by'] or '')}")
     L.append(f"notes     {len(st.notes)}")
     for n in st.notes:
         L.append(f"  [{p(_note_on(n.kind, n.target))}] {p(n.text)}  — {p(n.author)}, {p(n.time)} (event {n.seq})")
@@ -227,8 +239,8 @@ def case_report_json(case: Case, analysis: Analysis | None = None,
                         **{k: getattr(st.exclusion_info[ex.key], k)
                            for k in ("reason", "cause", "signal", "author", "time", "seq")}}
                        for ex in st.exclusions],
-        "signals": [{k: r[k] for k in ("key", "state", "detected", "by", "time", "note", "seq")}
-                    for r in rows if r["state"] != "open"],
+        "signals": [{k: r[k] for k in ("key", "state", "words", "detected", "by", "time", "note", "seq")}
+                    for r in rows if r["state"] != "open" or r["words"] != "open"],
         "notes": [{"on": n.kind, "target": n.target, "text": n.text, "author": n.author, "time": n.time,
                    "seq": n.seq} for n in st.notes],
         "trail": [{"seq": ev.seq, "time": ev.time, "author": ev.author, "kind": ev.kind, "summary": line,

@@ -32,11 +32,13 @@ class ExcludeDialog(ModalScreen[ExcludeChoice | None]):
 
     def __init__(self, label: str, streams: tuple[str, ...], causes: tuple[str, ...],
                  stream: str | None = None, signal_words: str | None = None,
-                 excluded_streams: frozenset[str] = frozenset()) -> None:
+                 excluded_streams: frozenset[str] = frozenset(), answers: tuple[str, ...] = ()) -> None:
         super().__init__(classes="dialog-screen")
         self.label, self.streams, self.causes = label, streams, causes
         self.stream, self.signal_words = stream, signal_words
         self.choosable = tuple(s for s in streams if s not in excluded_streams)
+        self.answers = answers
+        """Every signal the exclusion answers, in words (shown before it is confirmed)."""
 
     def compose(self) -> ComposeResult:
         with Vertical(classes="dialog"):
@@ -44,6 +46,12 @@ class ExcludeDialog(ModalScreen[ExcludeChoice | None]):
                          classes="dialog-title")
             if self.signal_words:
                 yield Static(Text(f"Answers the signal: {self.signal_words}"), classes="dialog-prompt")
+            if self.answers:
+                yield Static(Text("Signals this exclusion answers:\n" + "\n".join(f"  {safe(a)}" for a in self.answers)),
+                             id="answers", classes="dialog-prompt")
+            else:
+                yield Static(Text("It answers no signal: none has all its firing points here."), id="answers",
+                             classes="dialog-prompt")
             yield Static("Reason (required): why is this point not part of the process?", markup=False)
             yield Input(placeholder="e.g. nozzle 4 blocked, fixed at 10:40", id="reason")
             yield Static("Cause category", markup=False)

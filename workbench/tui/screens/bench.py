@@ -114,13 +114,15 @@ class BenchScreen(BenchCharts, Screen):
 
     # -- the cursor ---------------------------------------------------------------------------
 
-    def move_to(self, position: int, jump: bool = False) -> None:
-        """Put the cursor on ``position``; ``jump`` (to a signal) also scrolls the signals list to it."""
+    def move_to(self, position: int, jump: bool = False, row: int | None = None) -> None:
+        """Put the cursor on ``position``; ``jump`` (to a signal) also scrolls the signals list to it;
+        ``row`` selects that row of the list (several signals may first fire at one subgroup)."""
         snap = self.snap
         if snap is None:
             return
         m = snap.dataset.m
         self.cursor = max(0, min(int(position), m - 1))
+        self._row = row
         win = follow(self.window, self.cursor, m) if self.window else None
         if win != self.window:
             self.window = win
@@ -139,7 +141,10 @@ class BenchScreen(BenchCharts, Screen):
         snap, p = self.snap, self.cursor
         if snap is None:
             return
-        row = snap.marks.row_at(p)
+        row = getattr(self, "_row", None)
+        if row is None or not (0 <= row < snap.marks.current) or snap.marks.rows[row].anchor != p:
+            row = snap.marks.row_at(p)
+        self._row = row
         self.query_one(SignalList).select(row, scroll=jump)
         self.query_one(SubgroupPanel).show(snap, p)
         self.update_status()
@@ -162,7 +167,7 @@ class BenchScreen(BenchCharts, Screen):
     def signal_picked(self, msg: SignalList.Picked) -> None:
         row = self.snap.marks.rows[msg.index] if self.snap else None
         if row is not None and row.anchor >= 0:
-            self.move_to(row.anchor, jump=True)
+            self.move_to(row.anchor, jump=True, row=msg.index if msg.index < self.snap.marks.current else None)
 
     # -- actions ----------------------------------------------------------------------------
 
@@ -179,7 +184,7 @@ class BenchScreen(BenchCharts, Screen):
             cells = a.excluded_cells
             return True if a.excluded_subgroups[p] or (cells is not None and cells[p].any()) else None
         if action in ("explain", "no_cause", "reopen"):
-            row = mk.row_at(p)
+            row = self._signal_row()
             if row is None:
                 return None
             state = mk.rows[row].state
@@ -190,9 +195,9 @@ class BenchScreen(BenchCharts, Screen):
         if action == "watch":
             return True if self.app.following or snap.state.frozen is not None else None
         if action == "next_signal":
-            return True if mk.next_open(p, 1) is not None else None
+            return True if mk.next_open(p, 1, self._selected()) is not None else None
         if action == "prev_signal":
-            return True if mk.next_open(p, -1) is not None else None
+            return True if mk.next_open(p, -1, self._selected()) is not None else None
         return True
 
     def action_move(self, step: int) -> None:
@@ -209,15 +214,21 @@ class BenchScreen(BenchCharts, Screen):
         if row is None:
             self.notify(none_words, timeout=3)
             return
-        self.move_to(self.snap.marks.rows[row].anchor, jump=True)
+        self.move_to(self.snap.marks.rows[row].anchor, jump=True, row=row)
+
+    def _selected(self) -> int | None:
+        """The row selected in the signals list (n / N go on from it)."""
+        return self.query_one(SignalList).selected
 
     def action_next_signal(self) -> None:
         if self.snap:
-            self._go_row(self.snap.marks.next_open(self.cursor, 1), "No open signal after this subgroup.")
+            self._go_row(self.snap.marks.next_open(self.cursor, 1, self._selected()),
+                         "No open signal after this one.")
 
     def action_prev_signal(self) -> None:
         if self.snap:
-            self._go_row(self.snap.marks.next_open(self.cursor, -1), "No open signal before this subgroup.")
+            self._go_row(self.snap.marks.next_open(self.cursor, -1, self._selected()),
+                         "No open signal before this one.")
 
     def action_step_signal(self, step: int) -> None:
         snap = self.snap
@@ -226,12 +237,12 @@ class BenchScreen(BenchCharts, Screen):
         lst = self.query_one(SignalList)
         if lst.selected is None:
             import numpy as np
-            i = int(np.searchsorted(snap.marks.firsts, self.cursor, side="right"))
+            i = int(np.searchsorted(snap.marks.anchors, self.cursor, side="right"))
             index = i if step > 0 else i - 1
         else:
             index = lst.selected + step
         index = max(0, min(index, snap.marks.current - 1))
-        self.move_to(snap.marks.rows[index].anchor, jump=True)
+        self.move_to(snap.marks.rows[index].anchor, jump=True, row=index)
 
     def action_zoom(self, factor: float) -> None:
         if self.snap is None or self.window is None:
@@ -267,8 +278,20 @@ class BenchScreen(BenchCharts, Screen):
     def action_restore(self) -> None:
         self.app.restore_flow(self.cursor)
 
+    def _signal_row(self) -> int | None:
+        """The signal the cursor is on: the selected row when it covers the cursor, else the row there."""
+        snap = self.snap
+        if snap is None:
+            return None
+        row = getattr(self, "_row", None)
+        if row is not None and 0 <= row < snap.marks.current:
+            r = snap.marks.rows[row]
+            if r.first <= self.cursor <= r.last:
+                return row
+        return snap.marks.row_at(self.cursor)
+
     def _signal_key(self) -> str | None:
-        row = self.snap.marks.row_at(self.cursor) if self.snap else None
+        row = self._signal_row()
         return self.snap.marks.rows[row].key if row is not None else None
 
     def action_explain(self) -> None:

@@ -113,7 +113,8 @@ class FitScreen(Screen):
         from workbench.core.capability.report import capability_text
         a = snap.analysis
         try:
-            cap = capability_for(a, snap.state.signal_states)
+            from workbench.core.case.answers import statuses
+            cap = capability_for(a, statuses(a, snap.state))
             if cap is None:
                 raise ValueError("no specification is set (press s on the bench to give LSL / USL)")
             picture = fit_picture(cap, a.readings(), width, height)
