@@ -87,3 +87,20 @@ def test_signal_list_of_the_report_is_signal_json_of_each_signal():
     got = signals_json(later, {})
     assert got == [signal_json(later, s, {}) for s in later.signals]
     assert {d["phase"] for d in got} == {1, 2} and all(d["state"] == "open" for d in got)
+
+
+def test_iterating_the_signal_table_makes_the_signals_indexing_makes():
+    # [definition] a SignalTable behaves like the tuple of its Signals, whichever way they are made
+    from workbench.core.charts.signals import SignalTable
+    rng = np.random.default_rng(9)
+    v = np.round(rng.normal(10, 1, (3000, 5)), 1)
+    v[1200:1215] += 1.2
+    a = analyse(make_dataset(v), Settings(rules="nelson"))
+    table = a.signals
+    assert len(table) > 20
+    fresh = SignalTable(list(table.groups), a.dataset.labels)
+    by_index = [fresh[i] for i in range(len(fresh))]
+    assert list(table) == by_index
+    partly = SignalTable(list(table.groups), a.dataset.labels)
+    assert partly[5] == by_index[5]  # one made before the rest
+    assert list(partly) == by_index and partly[5] is list(partly)[5]

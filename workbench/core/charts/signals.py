@@ -117,8 +117,25 @@ class SignalTable(Sequence):
         return sig
 
     def __iter__(self):
+        if len(self._cache) < len(self):
+            self._make_all()
         for i in range(len(self)):
-            yield self[i]
+            yield self._cache[i]
+
+    def _make_all(self) -> None:
+        """Make every Signal at once, group by group from Python lists (a numpy scalar per field is slow)."""
+        labels = self._labels
+        parts = [(g, g.points.tolist(), g.fired.tolist(), g.point_ptr.tolist(), g.fired_ptr.tolist(),
+                  labels[g.first].tolist()) for g in self._groups]
+        cache = self._cache
+        for i, (gi, k) in enumerate(zip(self._gid.tolist(), self._local.tolist())):
+            if i in cache:
+                continue
+            g, pts, fired, pp, fp, first_labels = parts[gi]
+            a, b = pp[k], pp[k + 1]
+            cache[i] = Signal(chart=g.chart, rule=g.rule, first=pts[a], last=pts[b - 1], points=tuple(pts[a:b]),
+                              fired=tuple(fired[fp[k]:fp[k + 1]]), key=f"{g.chart}/{g.rule}/{first_labels[k]}",
+                              description=g.description)
 
     def __eq__(self, other) -> bool:
         if isinstance(other, (tuple, list, SignalTable)):

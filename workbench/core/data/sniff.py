@@ -158,7 +158,7 @@ def read_table(path: str | os.PathLike, text_columns: Callable[[list[str]], Iter
                   frozenset(text_columns(names)) & frozenset(names), decimal, source)
     # Cheap checks that every row has as many fields as the header; when one fails the lines
     # are numbered now, which names the first ragged row.
-    delims = np.count_nonzero(np.frombuffer(raw, np.uint8) == ord(delim))
+    delims = raw.count(delim.encode())
     if len(frame) and (b'"' in raw or (b"\r" in raw and raw.count(b"\r") != raw.count(b"\r\n"))
                        or delims != (len(frame) + 1) * (len(names) - 1) or _has_na(frame.iloc[:, -1])):
         table.lines  # noqa: B018
