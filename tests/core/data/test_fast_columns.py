@@ -127,3 +127,39 @@ def test_iso_times_check_every_cell(cells_text, ok):
         np.testing.assert_array_equal(got, pd.to_datetime(s, format="ISO8601").to_numpy())
     else:
         assert got is None
+
+
+def _load_plain(path, monkeypatch):
+    """The reference: subgroups found by factorizing the key text, repeats found by hashing the text."""
+    from workbench.core.data import reader
+    with monkeypatch.context() as m:
+        m.setattr(reader._Builder, "factorize_keys", lambda self, keys: pd.factorize(keys))
+        m.setattr(cells, "_adjacent_repeat", lambda text, values: False)
+        return load(path)
+
+
+@pytest.mark.parametrize("body", [
+    # the same time written two ways is two subgroups, as the text says
+    "2026-01-01 00:00,H1,1\n2026-01-01T00:00,H2,2\n2026-01-01 00:00,H2,3\n2026-01-01 00:01,H1,4\n"
+    "2026-01-01 00:01,H2,5\n",
+    # rows out of time order
+    "2026-01-01 00:02,H1,1\n2026-01-01 00:02,H2,2\n2026-01-01 00:01,H1,3\n2026-01-01 00:01,H2,4\n",
+])
+def test_long_layout_groups_by_time_as_by_text(tmp_path, monkeypatch, body):
+    path = tmp_path / "long.csv"
+    path.write_text("time,head,value\n" + body)
+    fast, plain = load(path), _load_plain(path, monkeypatch)
+    np.testing.assert_array_equal(fast.labels, plain.labels)
+    np.testing.assert_array_equal(fast.values, plain.values)
+    np.testing.assert_array_equal(fast.times, plain.times)
+    assert fast.layout == plain.layout and fast.layout.kind == "long"
+
+
+def test_generated_long_file_groups_as_by_text(tmp_path, monkeypatch):
+    from workbench.perf_data import write_long_csv
+    path = tmp_path / "long.csv"
+    write_long_csv(path, 2003, 4)
+    fast, plain = load(path), _load_plain(path, monkeypatch)
+    assert fast.m == plain.m == 501
+    np.testing.assert_array_equal(fast.labels, plain.labels)
+    np.testing.assert_array_equal(fast.values, plain.values)

@@ -246,6 +246,17 @@ def repeats(table: Table, column: str, times: Times | None = None) -> bool:
             v = s.to_numpy()
         if v is not None and (len(v) < 2 or bool((v[1:] > v[:-1]).all())):
             table._cache[key] = False
+        elif v is not None and bool((v[1:] >= v[:-1]).all()) and _adjacent_repeat(as_text(table, column), v):
+            table._cache[key] = True  # ordered values: a repeat shows next to its twin (found without hashing)
         else:
             table._cache[key] = not pd.Series(as_text(table, column)).is_unique
     return table._cache[key]
+
+
+def _adjacent_repeat(text: np.ndarray, values: np.ndarray) -> bool:
+    """Whether two neighbouring cells with equal values also have equal text."""
+    same = np.flatnonzero(values[1:] == values[:-1])
+    for part in (same[:64], same[64:]):  # the first few pairs nearly always settle it
+        if part.size and bool((text[part] == text[part + 1]).any()):
+            return True
+    return False

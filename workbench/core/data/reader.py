@@ -377,6 +377,22 @@ class _Builder:
                                                   f"sample size {_fmt(s[i])}"))
         return c, s
 
+    def factorize_keys(self, keys: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """``pandas.factorize`` of the subgroup keys (codes in order of first appearance).
+
+        When the key is the time column its parsed times are factorized instead (integers hash far
+        faster than text), and kept only when every key's text equals its group's first text.
+        """
+        lay = self.lay
+        if self.times is not None and lay.subgroup == lay.time and len(keys):
+            codes, _ = pd.factorize(self.order(self.times).view(np.int64))
+            seen = np.maximum.accumulate(codes)
+            first = np.flatnonzero(np.r_[True, codes[1:] > seen[:-1]])
+            labels = keys[first]
+            if np.array_equal(labels[codes], keys):
+                return codes, labels
+        return pd.factorize(keys)
+
     def grouped(self) -> dict:
         lay = self.lay
         keys = self.order(self.texts(lay.subgroup, "subgroup key"))
@@ -387,7 +403,7 @@ class _Builder:
         else:
             cols = {"values": self.nums(lay.value)}
         rows = np.arange(len(keys)) if self.perm is None else self.perm
-        sg, labels = pd.factorize(keys)
+        sg, labels = self.factorize_keys(keys)
         st, streams = pd.factorize(names)
         m, k = len(labels), len(streams)
         flat = sg.astype(np.int64) * k + st
