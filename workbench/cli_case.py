@@ -166,7 +166,7 @@ def cmd_set(args: argparse.Namespace) -> int:
 
 def cmd_freeze(args: argparse.Namespace) -> int:
     with _open(args) as case:
-        case.record_freeze(case.load_dataset())
+        case.record_freeze(case.load_dataset(), force=args.force, reason=args.reason)
         return _done(case)
 
 
@@ -265,7 +265,9 @@ def register(subparsers: Any) -> None:
     p.add_argument("--reason", required=True, help="why (required)")
     p = action("set", cmd_set, "change the setup (chart, rules, specification)")
     add_setup_options(p)
-    action("freeze", cmd_freeze, "freeze the current limits for new data (Phase II)")
+    p = action("freeze", cmd_freeze, "freeze the current limits for new data (Phase II)")
+    p.add_argument("--force", action="store_true", help="freeze although signals are still open (needs --reason)")
+    p.add_argument("--reason", help="why the limits are frozen with open signals (recorded in the trail)")
     p = action("unfreeze", cmd_unfreeze, "unfreeze the limits")
     p.add_argument("--reason", required=True, help="why (required)")
     p = action("causes", cmd_causes, "show or edit the case's list of cause categories")

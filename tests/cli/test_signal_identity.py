@@ -121,3 +121,15 @@ def test_a_case_written_before_firing_points_were_recorded_replays_to_the_same_s
     gone = {s["key"]: s["state"] for s in rep["case"]["signals"] if not s["detected"]}
     assert gone == {"xbar/zone-b/2026-03-03 08:00": "excluded", "r/beyond-limits/2026-03-03 15:30": "excluded"}
     assert Case.open(case, readonly=True).state.seq == 5
+
+
+def test_freezing_with_open_signals_needs_force_and_a_reason(demo, capsys):
+    code, _out, err = run(capsys, "case", "freeze", CASE)
+    assert code == 2 and "15 signal(s) are still open" in err and "--force --reason" in err
+    assert run(capsys, "case", "freeze", CASE, "--force")[0] == 2           # a reason is required too
+    code, out, _ = run(capsys, "case", "freeze", CASE, "--force", "--reason", "trial limits for the new line")
+    assert code == 0 and "with 15 open signals: trial limits for the new line" in out
+    ev = Case.open(CASE, readonly=True).events[-1]
+    assert ev.kind == "freeze" and ev.payload["reason"] == "trial limits for the new line"
+    assert len(ev.payload["open_signals"]) == 15
+    assert run(capsys, "verify", CASE)[0] == 0

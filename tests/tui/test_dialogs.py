@@ -126,10 +126,10 @@ async def test_q_in_a_dialog_cancels_it_or_types_it_never_quits(in_tmp, opened):
     from workbench.tui.dialogs.reason import ReasonDialog
     app = demo_app()
     async with opened(app, size=(120, 36)) as pilot:
-        await pilot.press("L")  # the freeze question: buttons only
+        await pilot.press("L")  # open signals: the freeze asks for a reason (q types there)
         await settle(pilot)
-        assert isinstance(app.screen, ChoiceDialog)
-        await pilot.press("q")
+        assert isinstance(app.screen, ReasonDialog)
+        await pilot.press("escape")
         await settle(pilot)
         assert app.is_running and isinstance(app.screen, BenchScreen) and app.snapshot.state.frozen is None
         await pilot.press("a")  # a note: q is a letter of the text

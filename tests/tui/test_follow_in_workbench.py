@@ -19,11 +19,13 @@ async def _frozen_case(tmp_path, opened):
     app = data_app(data)
     async with opened(app, size=(120, 36)) as pilot:
         assert app.screen.check_action("watch", ()) is None  # nothing to watch against before a freeze
-        await pilot.press("L")
+        await pilot.press("L")  # the demo has open signals: the dialog lists them and asks for a reason
         await settle(pilot)
-        await pilot.click("#choice-freeze")
+        assert "signal(s) are still open" in screen_text(app)
+        await pilot.press(*"trial of the watch", "enter")
         await settle(pilot)
         assert app.snapshot.state.frozen is not None
+        assert app.snapshot.events[-1].payload["reason"] == "trial of the watch"
         case_path = app.snapshot.case_path
         m = app.snapshot.dataset.m
         await pilot.press("q")
@@ -119,7 +121,7 @@ async def test_the_key_stops_following_and_a_rewritten_file_stops_it(in_tmp, ope
         await settle(pilot)
         assert app.following is None and app.snapshot.state.frozen is None
         assert any("unfrozen" in str(n.message) for n in app._notifications)
-        app.act(lambda s: s.freeze())
+        app.act(lambda s: s.freeze("frozen again to follow"))  # open signals: with a reason
         await settle(pilot)
         await pilot.press("w")
         await settle(pilot)

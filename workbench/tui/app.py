@@ -51,6 +51,18 @@ class WorkbenchApp(Watching, Flows, App[int]):
 
     # -- opening ------------------------------------------------------------------------------
 
+    def check_size(self) -> None:
+        """Below 80×24 one screen asks for a larger terminal; it goes once the terminal is large enough."""
+        from workbench.tui.screens.too_small import TooSmallScreen, too_small
+        width, height = self.size.width, self.size.height
+        small = too_small(width, height)
+        if small and not isinstance(self.screen, TooSmallScreen):
+            self.push_screen(TooSmallScreen())
+        elif small:
+            self.screen.show_size(width, height)
+        elif isinstance(self.screen, TooSmallScreen):
+            self.pop_screen()
+
     def on_mount(self) -> None:
         self.push_screen(LoadingScreen(self.request.path.name))
         self._open(self.request)

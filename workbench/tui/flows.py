@@ -127,6 +127,15 @@ class Flows:
             self.push_screen(ReasonDialog("Unfreeze the limits", "Why go back to trial (Phase I) limits?", "Unfreeze"),
                              lambda r: self.act(lambda s: s.unfreeze(r)) if r else None)
             return
+        still = [r for r in snap.marks.rows[:snap.marks.current] if r.state == "open"]
+        if still:  # open signals: say which, and freeze only with a reason (recorded in the trail)
+            listed = "\n".join(f"  {safe(r.chart)} {safe(r.rule)} at {r.label}" for r in still[:8])
+            more = f"\n  … and {len(still) - 8:,} more" if len(still) > 8 else ""
+            prompt = (f"{len(still):,} signal(s) are still open:\n{listed}{more}\nLimits with open signals are not "
+                      "shown to be stable. To freeze them anyway, say why (recorded in the trail):")
+            self.push_screen(ReasonDialog("Freeze with open signals?", prompt, "Freeze anyway"),
+                             lambda r: self.act(lambda s: s.freeze(r)) if r else None)
+            return
         msg = (f"Fix the current limits (from {snap.dataset.m:,} subgroups) as Phase I limits? Subgroups "
                "added to the data later are judged against them (Phase II).")
         self.push_screen(ChoiceDialog("Freeze the limits", msg, [("freeze", "Freeze"), ("cancel", "Cancel")]),
@@ -152,7 +161,9 @@ class Flows:
 
             self.act(run)
 
-        self.push_screen(SetupDialog(snap.state.settings, snap.author, snap.analysis.chart), applied)
+        from workbench.core.report import describe_mapping
+        self.push_screen(SetupDialog(snap.state.settings, snap.author, snap.analysis.chart,
+                                     safe(describe_mapping(snap.analysis))), applied)
 
     def settings_flow(self, settings: Settings, words: str) -> None:
         """Record a settings change without a dialog (e.g. the fit view's method switch)."""

@@ -246,9 +246,9 @@ class Session:
         self.analysis = self.case.record_settings(self.dataset, settings)
         return self._limits_change(before, "Setup changed", tuple(settings_changes(old, settings)))
 
-    def freeze(self) -> Change:
+    def freeze(self, reason: str | None = None) -> Change:
         before = self.analysis
-        self.analysis = self.case.record_freeze(self.dataset)
+        self.analysis = self.case.record_freeze(self.dataset, force=bool(reason), reason=reason)
         return self._limits_change(before, "Limits frozen")
 
     def unfreeze(self, reason: str) -> Change:

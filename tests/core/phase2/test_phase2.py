@@ -366,7 +366,7 @@ def test_frozen_limits_stay_the_limits_at_the_freeze_event(tmp_path):
     ds = load(path)
     with Case.create_for(ds, LayoutRequest(), Settings(), case_path=tmp_path / "w.case.json",
                          limits=limits_snapshot(analyse(ds))) as case:
-        case.record_freeze(ds)
+        case.record_freeze(ds, force=True, reason="test: Phase I as it stands")
     append(path, rows(30, 45, 2.0))  # shifted new data never move frozen limits
     with Case.open(tmp_path / "w.case.json") as case:
         event = case.events[-1]
@@ -392,7 +392,7 @@ def test_a_watch_judges_each_subgroup_once_and_remembers_what_it_saw(tmp_path):
     with Case.open(cp) as case:
         with pytest.raises(WorkbenchError, match="workbench case freeze"):
             Watch.start(case)
-    assert main(["case", "freeze", cp]) == 0
+    assert main(["case", "freeze", cp, "--force", "--reason", "test: Phase I as it stands"]) == 0
     append(path, "".join(_wide(i, rng) for i in range(25, 28)))
     with Case.open(cp) as case:
         w = Watch.start(case)

@@ -429,11 +429,32 @@ class Case:
         self._check_changed(settings)
         return self._record(dataset, "settings", {"settings": settings.as_dict()}, author)
 
-    def record_freeze(self, dataset: Dataset, author: str | None = None) -> Analysis:
+    def open_signal_keys(self, dataset: Dataset) -> list[str]:
+        """Keys of the signals still open (answers kept against firing points)."""
+        from workbench.core.analysis import open_signals
+        from workbench.core.case.answers import statuses
+        a = self.analyse(dataset)
+        return [s.key for s in open_signals(a, statuses(a, self.state))]
+
+    def record_freeze(self, dataset: Dataset, author: str | None = None, force: bool = False,
+                      reason: str | None = None) -> Analysis:
+        """Freeze the limits.  With open signals it is refused unless ``force`` with a ``reason``; the reason
+        and the open signals' keys are recorded in the freeze event."""
         from workbench.core.analysis import freeze
         self._check_writable()
         before = self.analyse(dataset)
-        return self._record(dataset, "freeze", {"frozen": freeze(before).as_dict()}, author, before)
+        payload: dict = {"frozen": freeze(before).as_dict()}
+        still = self.open_signal_keys(dataset)
+        if still:
+            if not force or not (reason or "").strip():
+                shown = ", ".join(still[:5]) + (f" and {len(still) - 5:,} more" if len(still) > 5 else "")
+                raise WorkbenchError(f"{len(still):,} signal(s) are still open ({shown}): limits with open signals "
+                                     "are not shown to be stable; answer them first, or give --force --reason TEXT")
+            payload["reason"] = _text(reason)
+            payload["open_signals"] = still
+        elif reason:
+            payload["reason"] = _text(reason)
+        return self._record(dataset, "freeze", payload, author, before)
 
     def record_unfreeze(self, dataset: Dataset, reason: str, author: str | None = None) -> Analysis:
         return self._record(dataset, "unfreeze", {"reason": _text(reason)}, author)

@@ -474,7 +474,7 @@ _PAYLOAD_KEYS = {
     "restore": ({"subgroup", "reason"}, {"stream", "range"}),
     "note": ({"on", "target", "text"}, {"range"}),
     "signal": ({"key", "state"}, {"note", "keys", "range", "fired"}),
-    "freeze": ({"frozen"}, set()),
+    "freeze": ({"frozen"}, {"reason", "open_signals"}),
     "unfreeze": ({"reason"}, set()),
     "data-appended": ({"subgroups", "rows", "size_bytes", "sha256"}, {"signals"}),
     "retract": ({"event", "hash", "reason"}, set()),

@@ -180,7 +180,10 @@ def describe(ev: Event) -> str:
     if ev.kind == "causes":
         return "cause list set to " + ", ".join(q(c) for c in p["causes"])
     if ev.kind == "freeze":
-        return f"limits frozen ({p['frozen'].get('subgroups')} subgroups in Phase I)"
+        still = p.get("open_signals") or []
+        extra = (f" with {len(still)} open signal{'s' if len(still) != 1 else ''}" if still else "") + (
+            f": {q(p['reason'])}" if p.get("reason") else "")
+        return f"limits frozen ({p['frozen'].get('subgroups')} subgroups in Phase I){extra}"
     if ev.kind == "unfreeze":
         return f"limits unfrozen: {q(p['reason'])}"
     if ev.kind == "data-appended":

@@ -41,7 +41,11 @@ from workbench.core.data import sniff
 from workbench.core.model import LAYOUTS, Dataset, Layout, LayoutRequest, WorkbenchError
 from workbench.core.data.sniff import Table
 
-_KEY = re.compile(r"^(subgroup|group|batch|lot|sample|time|timestamp|date|datetime|id)(no|nr|number|id)?$")
+_KEY = re.compile(r"^(subgroup|group|sg|batch|lot|sample|time|timestamp|date|datetime|id|index|idx|seq|sequence"
+                  r"|no|nr|number|obs|observation)(no|nr|number|id)?$")
+FAR_SDS = 100.0
+"""A stream whose mean is further than this many pooled within-stream SDs from the others is not taken
+as a stream without asking (a key, a counter or another measure that slipped into the readings)."""
 _TIME = re.compile(r"^(time|timestamp|date|datetime)$")
 _STREAM = frozenset("stream head spindle cavity lane nozzle station line machine channel position".split())
 _N = ("n", "size", "count", "samplesize", "subgroupsize")
@@ -137,6 +141,12 @@ def detect(table: Table, req: LayoutRequest) -> Layout:
         return Layout("long" if long else "individuals", subgroup=key, stream=stream if long else None,
                       time=time, count=count, size=size, detected=auto)
     numbers = [c for c in cols if c not in used and c != stream and sniff.column_kind(table, c) == "number"]
+    if req.kind in (None, "wide") and not req.streams and not req.value and not req.stream:
+        counters = [c for c in numbers if _counts_up(table, c)]
+        if counters and len(numbers) - len(counters) >= 1:  # 1, 2, 3 … is a key, never a stream
+            numbers = [c for c in numbers if c not in counters]
+            if key is None:
+                key, by_name = counters[0], False
     kind = req.kind or ("wide" if req.streams else "long" if (req.stream or repeats) else
                         "individuals" if req.value else "wide" if len(numbers) >= 2 else "individuals")
     if kind == "long":
@@ -152,6 +162,8 @@ def detect(table: Table, req: LayoutRequest) -> Layout:
         streams = tuple(req.streams) or tuple(numbers)
         if not streams:
             raise WorkbenchError(f"{table.path}: no column of numbers found (columns: {', '.join(cols)})")
+        if not req.streams:
+            _far_streams(table, streams)
         return Layout("wide", subgroup=key, time=time, streams=streams, detected=auto)
     return Layout("individuals", subgroup=key, value=req.value or _one(table, numbers), time=time, detected=auto)
 
@@ -173,6 +185,43 @@ def _find_key(table: Table, cols: list[str], norm: dict[str, str]) -> tuple[str 
     if len(cols) > 1 and norm[c] not in _STREAM and sniff.column_kind(table, c) == "text":
         return c, False
     return None, False
+
+
+def _counts_up(table: Table, col: str) -> bool:
+    """A column of whole numbers that strictly increase row by row (1, 2, 3 …): a key, not a reading."""
+    v = sniff.as_numbers(table, col).values
+    if v.size < 3 or not np.isfinite(v).all():
+        return False
+    return bool(np.all(v == np.round(v)) and np.all(np.diff(v) > 0))
+
+
+def _far_streams(table: Table, streams: tuple[str, ...]) -> None:
+    """Stop detection when a stream's level is far from the others (more than FAR_SDS pooled SDs from
+    the median of the stream means; the pooled SD is the median of the streams' SDs, so the odd stream
+    cannot hide itself): say which and ask for the stream columns."""
+    if len(streams) < 2:
+        return
+    means, sds = [], []
+    for c in streams:
+        v = sniff.as_numbers(table, c).values
+        v = v[np.isfinite(v)]
+        means.append(float(v.mean()) if v.size else np.nan)
+        sds.append(float(v.std(ddof=1)) if v.size > 1 else np.nan)
+    means_a, sds_a = np.array(means), np.array(sds)
+    ok = np.isfinite(means_a) & np.isfinite(sds_a)
+    if ok.sum() < 2:
+        return
+    pooled = float(np.median(sds_a[ok]))
+    centre = float(np.median(means_a[ok]))
+    if pooled <= 0:
+        return
+    far = [(c, m) for c, m, good in zip(streams, means_a, ok) if good and abs(m - centre) > FAR_SDS * pooled]
+    if far:
+        c, m = max(far, key=lambda x: abs(x[1] - centre))
+        raise WorkbenchError(
+            f"{table.path}: column {c!r} (mean {m:.6g}) lies {abs(m - centre) / pooled:,.0f} pooled SDs from the other "
+            f"columns (mean {centre:.6g}): is it a key or another measure rather than a stream? give --streams with the "
+            f"stream columns (and --subgroup for a key)")
 
 
 def _find_time(req: LayoutRequest, key: str | None, cols: list[str], norm: dict[str, str]) -> str | None:

@@ -59,9 +59,11 @@ class SetupDialog(ModalScreen[SetupResult | None]):
     BINDINGS = [Binding("escape,q", "cancel", "Cancel", id="dialog-cancel"),
                 Binding("ctrl+s", "apply", "Apply", id="dialog-apply")]
 
-    def __init__(self, settings: Settings, author: str, resolved_chart: str) -> None:
+    def __init__(self, settings: Settings, author: str, resolved_chart: str, mapping: str = "") -> None:
         super().__init__(classes="dialog-screen")
         self.settings, self.author, self.resolved = settings, author, resolved_chart
+        self.mapping = mapping
+        """The column mapping in words (shown; it is part of the case's data reference)."""
 
     def compose(self) -> ComposeResult:
         s, spec = self.settings, self.settings.spec or Spec()
@@ -70,6 +72,10 @@ class SetupDialog(ModalScreen[SetupResult | None]):
         text = lambda v: "" if v is None else f"{v:g}"  # noqa: E731
         with Vertical(classes="dialog wide-dialog"):
             yield Static(Text("Setup", style="bold"), classes="dialog-title")
+            if self.mapping:
+                yield Static(Text(f"Columns: {self.mapping} (fixed for this case: to map them differently, open the "
+                                  "data file again with --subgroup / --streams / --value)"), id="setup-mapping",
+                             classes="dialog-prompt")
             with VerticalScroll(classes="setup-fields"):
                 with Grid(classes="setup-grid"):
                     yield Label(f"Chart kind (now {self.resolved})")

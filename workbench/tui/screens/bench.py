@@ -14,6 +14,7 @@ from textual.widgets import Static
 
 from workbench.tui.plotting import legend_text
 from workbench.tui.session import Snapshot
+from workbench.tui.view import safe
 from workbench.tui.widgets.control_chart import ControlChart
 from workbench.tui.widgets.keybar import KeyBar
 from workbench.tui.widgets.lines import LinesPanel
@@ -69,6 +70,7 @@ class BenchScreen(BenchCharts, Screen):
         self._enabled: tuple = ()
 
     def compose(self) -> ComposeResult:
+        yield Static("", id="mapping-note", markup=False)
         with Horizontal(id="bench-body"):
             with Vertical(id="charts"):
                 yield ControlChart(id="location")
@@ -81,6 +83,8 @@ class BenchScreen(BenchCharts, Screen):
         yield KeyBar()
 
     def on_mount(self) -> None:
+        self.mapping_seen = False
+        """The line naming the column mapping was dismissed (escape)."""
         self.query_one("#signals").border_title = "signals"
         self.query_one("#subgroup").border_title = "subgroup"
         if self.app.snapshot is not None:
@@ -90,6 +94,11 @@ class BenchScreen(BenchCharts, Screen):
 
     def show_snapshot(self, snap: Snapshot) -> None:
         self.snap = snap
+        note = self.query_one("#mapping-note", Static)
+        if not getattr(self, "mapping_seen", False):
+            from workbench.core.report import describe_mapping
+            note.update(f" columns {safe(describe_mapping(snap.analysis))} — s: setup · esc: hide this line")
+        note.display = not getattr(self, "mapping_seen", False)
         m = snap.dataset.m
         self.cursor = max(0, min(self.cursor, m - 1))
         if self.window is not None and self.window.stop > m:
@@ -103,6 +112,7 @@ class BenchScreen(BenchCharts, Screen):
         self.request_charts()
 
     def on_resize(self) -> None:
+        self.app.call_after_refresh(self.app.check_size)
         self.set_class(self.size.width < 100, "narrow")
         self.set_class(self.size.height < 30, "short")
         self.set_class(self.size.width >= 150, "wide")
@@ -328,4 +338,9 @@ class BenchScreen(BenchCharts, Screen):
         self.call_after_refresh(self.request_charts)
 
     def action_back(self) -> None:
+        note = self.query_one("#mapping-note", Static)
+        if note.display:  # escape first dismisses the line naming the columns
+            self.mapping_seen = True
+            note.display = False
+            return
         self.notify("This is the bench, the first screen: press q to quit.", timeout=3)
