@@ -21,12 +21,18 @@ async def test_fit_view_shows_cautions_and_records_the_method(in_tmp, opened):
         assert "Stability gate" in text and "open signals" in text
         assert "LSL 497" in text and "USL 503" in text  # demo_data/README.md: specification 497.0–503.0 mL
         assert "Cpk" in text or "Ppk" in text
-        await pilot.press("1")
+        events = len(app.snapshot.events)
+        await pilot.press("1")  # looking is not recording: the previewed figures, no trail event
+        await settle(pilot)
+        assert len(app.snapshot.events) == events and app.snapshot.state.settings.spec.method == "auto"
+        assert "Method: normal" in screen_text(app) and "previewing" in screen_text(app)
+        assert app.screen.check_action("method", ("normal",)) is None  # already shown
+        await pilot.press("u")  # use this method for the case: one setup event
         await settle(pilot)
         snap = app.snapshot
+        assert len(snap.events) == events + 1
         assert snap.events[-1].kind == "settings" and snap.state.settings.spec.method == "normal"
-        assert "Method: normal" in screen_text(app)
-        assert app.screen.check_action("method", ("normal",)) is None  # already chosen
+        assert "Method: normal" in screen_text(app) and "previewing" not in screen_text(app)
         await pilot.press("escape", "q")
 
 

@@ -37,7 +37,8 @@ def stability_text(open_count: int, explained: int, excluded: int) -> Text:
 
 
 class FitScreen(Screen):
-    """Capability of the non-excluded readings; the method switch records a setup change."""
+    """Capability of the non-excluded readings.  ``1``–``4`` preview a method (nothing is recorded);
+    ``u`` uses the previewed method for the case (one setup event in the trail)."""
 
     BINDINGS = [
         Binding("escape", "back", "Back", id="fit-back"),
@@ -45,6 +46,7 @@ class FitScreen(Screen):
         Binding("2", "method('box-cox')", "Box-Cox", id="fit-box-cox"),
         Binding("3", "method('percentile')", "Percentile", id="fit-percentile"),
         Binding("4", "method('auto')", "Auto", id="fit-auto"),
+        Binding("u", "use_method", "Use this method for the case", id="fit-use"),
         Binding("s", "setup", "Setup", id="fit-setup"),
     ]
 
@@ -53,6 +55,8 @@ class FitScreen(Screen):
         self.snap: Snapshot | None = None
         self.token = 0
         self.capability = None
+        self.preview: str | None = None
+        """A method looked at but not chosen for the case (None: the case's own)."""
         """The capability shown (core Capability; its gate counts the case's open signals)."""
 
     def compose(self) -> ComposeResult:
@@ -92,10 +96,12 @@ class FitScreen(Screen):
                      style="bold")
             return t
         t.append("Method: ")
+        shown = self.preview or spec.method
         for i, m in enumerate(METHODS, 1):
-            chosen = m == spec.method
-            t.append(f" {i} {m} ", style="bold reverse" if chosen else "")
+            t.append(f" {i} {m} ", style="bold reverse" if m == shown else "")
             t.append(" ")
+        if self.preview:
+            t.append(f" previewing — the case uses {spec.method}; u: use this method for the case", style="italic")
         t.append("\n")
         mk = snap.marks
         t.append_text(stability_text(mk.open_count, mk.explained_count + mk.no_cause_count, mk.excluded_count))
@@ -105,16 +111,24 @@ class FitScreen(Screen):
         plot = self.query_one(FitPlot)
         side = self.query_one("#fit-side")
         self.token += 1
-        self._assess(self.token, self.snap, plot.size.width, plot.size.height, max(side.size.width - 2, 40))
+        self._assess(self.token, self.snap, plot.size.width, plot.size.height, max(side.size.width - 2, 40),
+                     self.preview)
 
     @work(thread=True, exclusive=True, group="fit")
-    def _assess(self, token: int, snap: Snapshot, width: int, height: int, text_width: int) -> None:
+    def _assess(self, token: int, snap: Snapshot, width: int, height: int, text_width: int,
+                preview: str | None = None) -> None:
         from workbench.core.analysis import capability_for
         from workbench.core.capability.report import capability_text
         a = snap.analysis
         try:
             from workbench.core.case.answers import statuses
-            cap = capability_for(a, statuses(a, snap.state))
+            states = statuses(a, snap.state)
+            cap = capability_for(a, states)
+            if cap is not None and preview and preview != cap.spec.method:  # looking only: nothing recorded
+                from workbench.core.analysis import open_signals
+                from workbench.core.capability.assess import assess
+                cap = assess(a.readings(), a.sigma_within, a.sigma_method, replace(cap.spec, method=preview),
+                             open_signals=len(open_signals(a, states)))
             if cap is None:
                 raise ValueError("no specification is set (press s on the bench to give LSL / USL)")
             picture = fit_picture(cap, a.readings(), width, height)
@@ -147,8 +161,10 @@ class FitScreen(Screen):
             return None
         if action == "method":
             spec = self.spec()
-            if spec is None or (spec.lsl is None and spec.usl is None) or spec.method == parameters[0]:
+            if spec is None or (spec.lsl is None and spec.usl is None) or (self.preview or spec.method) == parameters[0]:
                 return None
+        if action == "use_method":
+            return True if self.preview and snap is not None and not snap.readonly and not self.app.busy else None
         return True
 
     def action_back(self) -> None:
@@ -158,6 +174,15 @@ class FitScreen(Screen):
         self.app.setup_flow()
 
     def action_method(self, method: str) -> None:
+        """Look at another method: the figures change on screen only (nothing goes in the trail)."""
+        self.preview = None if method == self.spec().method else method
+        self.query_one("#fit-head", Static).update(self._head())
+        self.compute()
+        self.refresh_bindings()
+
+    def action_use_method(self) -> None:
+        """Use the previewed method for the case: one setup event."""
+        method, self.preview = self.preview, None
         settings = self.snap.state.settings
         self.app.settings_flow(replace(settings, spec=replace(settings.spec, method=method)),
                                f"capability method {method}")
