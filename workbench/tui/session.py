@@ -131,8 +131,8 @@ def case_summary(path: Path) -> str:
 
 def read_columns(path: Path) -> tuple[tuple[str, ...], dict[str, str]]:
     """The column names of a data file and a few sample cells of each (for the mapping dialog)."""
-    from workbench.core.data import sniff
-    table = sniff.read_table(path)
+    from workbench.core.data.reader import read_any
+    table = read_any(path)
     cols = tuple(str(c) for c in table.frame.columns)
     samples = {c: ", ".join(str(v) for v in table.frame[c].head(3).tolist()) for c in cols}
     return cols, samples

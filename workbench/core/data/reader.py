@@ -1,4 +1,4 @@
-"""Loading process data: a CSV, TSV or XLSX file becomes a :class:`Dataset`.
+"""Loading process data: a CSV, TSV, XLSX, Parquet or Arrow file becomes a :class:`Dataset`.
 
 Reading (encoding, delimiter, row numbers, cells) is in :mod:`workbench.core.data.sniff`.  This
 module decides the layout and arranges the readings as subgroups x streams.
@@ -66,7 +66,7 @@ def load(path: str | os.PathLike, request: LayoutRequest = LayoutRequest()) -> D
     Parameters
     ----------
     path : str or os.PathLike
-        A CSV / TSV (delimiter sniffed) or XLSX file (first sheet).
+        A CSV / TSV (delimiter sniffed), XLSX file (first sheet), Parquet or Feather / Arrow IPC file.
     request : LayoutRequest
         Overrides for the layout detection (see the module docstring).
 
@@ -84,7 +84,7 @@ def load(path: str | os.PathLike, request: LayoutRequest = LayoutRequest()) -> D
         raise WorkbenchError(f"unknown layout {request.kind!r} (choose {', '.join(LAYOUTS)})")
     if request.size and not request.count:
         raise WorkbenchError("--size needs --count (the column of counts)")
-    table = sniff.read_table(path, lambda names: _text_columns(names, request))
+    table = read_any(path, lambda names: _text_columns(names, request), _wanted(request))
     cols = list(table.frame.columns)
     r = request
     for name in (r.subgroup, r.stream, r.value, r.time, r.count, r.size, *r.streams):
@@ -92,6 +92,33 @@ def load(path: str | os.PathLike, request: LayoutRequest = LayoutRequest()) -> D
             raise WorkbenchError(f"{table.path}: no column {name!r} (columns: {', '.join(cols)})")
     layout = detect(table, request)
     return _Builder(table, layout, request).build()
+
+
+def read_any(path, text_columns=lambda names: (), wanted=lambda names: None) -> Table:
+    """A data file as a table of cells: Parquet / Feather / Arrow IPC (``wanted`` columns only), else CSV/TSV/XLSX."""
+    from workbench.core.data import columnar
+    if columnar.kind_of(path) is not None:
+        return columnar.read_table(path, text_columns, wanted)
+    return sniff.read_table(path, text_columns)
+
+
+def _wanted(req: LayoutRequest):
+    """The columns a columnar file must deliver for this request, or None for all of them.
+
+    Only when the readings are named (``--value``, ``--streams``, ``--count``) and the subgroup
+    and stream columns are given or named like one is a subset enough for the same detection."""
+    def pick(names: list[str]) -> list[str] | None:
+        if not (req.value or req.streams or req.count):
+            return None
+        named = [n for n in names if _KEY.match(_norm(n)) or _norm(n) in _STREAM]
+        if not (req.subgroup or any(_KEY.match(_norm(n)) for n in names)):
+            return None
+        if not (req.stream or req.streams or req.kind in ("wide", "individuals")
+                or any(_norm(n) in _STREAM for n in names)):
+            return None
+        given = [c for c in (req.subgroup, req.stream, req.value, req.time, req.count, req.size, *req.streams) if c]
+        return given + named
+    return pick
 
 
 def _text_columns(names: list[str], req: LayoutRequest) -> set[str]:

@@ -134,6 +134,9 @@ class Follower(_RowReader):
                 raise WorkbenchError(f"{shown} was rewritten: its first {size} bytes differ from those read before")
         if raw.startswith(b"PK\x03\x04"):
             raise WorkbenchError(f"{shown}: a workbook cannot be followed; rows are appended to CSV or TSV text files")
+        if raw.startswith((b"PAR1", b"ARROW1", b"FEA1", b"\xff\xff\xff\xff")):
+            raise WorkbenchError(f"{shown}: a Parquet or Arrow file is rewritten, not appended to, so it cannot be "
+                                 "followed; rows are appended to CSV or TSV text files")
         cut = _complete(raw)
         if cut == 0:
             raise WorkbenchError(f"{shown} has no complete line yet")
