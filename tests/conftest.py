@@ -35,3 +35,47 @@ def _isolate_home(tmp_path, monkeypatch):
     monkeypatch.setenv("HOME", str(tmp_path / "home"))
     monkeypatch.setenv("WORKBENCH_AUTHOR", "tester@lab")
     monkeypatch.delenv("NO_COLOR", raising=False)
+
+
+# ---- a real PostgreSQL server (session-scoped) -----------------------------------------------
+
+PG_PASSWORD = "Fill-Head-7#q"
+"""The test role's password: every test that prints or writes something checks it never appears."""
+
+
+@pytest.fixture(scope="session")
+def pg_server():
+    """A throwaway PostgreSQL server on a Unix socket in a temporary folder (stopped at the end)."""
+    from workbench import pgserver
+    why = pgserver.missing_reason()
+    if why:
+        pytest.skip(why)
+    server = pgserver.TempServer().start()
+    try:
+        with server.connect() as conn:
+            conn.execute(f"CREATE ROLE engineer LOGIN PASSWORD '{PG_PASSWORD}'")
+            conn.execute("CREATE DATABASE plant OWNER engineer")
+        yield server
+    finally:
+        server.stop()
+
+
+@pytest.fixture(scope="session")
+def pg_demo(pg_server):
+    """The demo's filler data in PostgreSQL: ``filler`` (wide, numeric(5,1) readings, timestamp key) and
+    ``filler_long`` (long, double precision); returns the URL with the engineer's password."""
+    import csv
+    from pathlib import Path
+    demo = Path(__file__).resolve().parent.parent / "demo_data"
+    with pg_server.connect("plant") as conn:
+        conn.execute("SET ROLE engineer")
+        rows = list(csv.reader(open(demo / "filler_line3.csv", encoding="utf-8")))
+        conn.execute("CREATE TABLE filler (time timestamp, " + ", ".join(f'"{h}" numeric(5,1)' for h in rows[0][1:])
+                     + ")")
+        with conn.cursor() as cur:
+            cur.executemany("INSERT INTO filler VALUES (%s" + ", %s" * 6 + ")", rows[1:])
+        long_rows = list(csv.reader(open(demo / "filler_line3_long.csv", encoding="utf-8")))
+        conn.execute("CREATE TABLE filler_long (time text, head text, fill_ml double precision, operator text)")
+        with conn.cursor() as cur:
+            cur.executemany("INSERT INTO filler_long VALUES (%s, %s, %s, %s)", long_rows[1:])
+    return pg_server.url("engineer", PG_PASSWORD, "plant")

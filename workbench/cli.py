@@ -103,7 +103,8 @@ def cmd_report(args: argparse.Namespace) -> int:
             extra = case_report.case_report_text(case, a)
     else:
         from workbench.core.data.reader import load
-        ds = load(args.path, layout_request_from_args(args))
+        from workbench.options import data_source
+        ds = load(data_source(args.path, args), layout_request_from_args(args))
         settings = settings_from_args(args, _default_settings_for(args.path))
         excl = [e for e, _ in _parse_exclusions(args.exclude, ds)]
         a = analyse(ds, settings, excl)

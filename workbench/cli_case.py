@@ -77,10 +77,11 @@ def cmd_new(args: argparse.Namespace) -> int:
     from workbench.demo import demo_settings_for
     request = layout_request_from_args(args)
     settings = settings_from_args(args, demo_settings_for(args.data))
-    dataset = load(args.data, request)
+    from workbench.options import data_source
+    dataset = load(data_source(args.data, args), request)
     analysis = analyse(dataset, settings)
     with Case.create_for(dataset, request, settings, args.author, args.output, limits_snapshot(analysis)) as case:
-        print(f"{printable(str(case.path))}: created for {printable(args.data)} — {dataset.m} subgroups, "
+        print(f"{printable(str(case.path))}: created for {printable(dataset.source.shown if dataset.source else args.data)} — {dataset.m} subgroups, "
               f"{analysis.chart} chart, {len(analysis.signals)} signal(s)")
     return 0
 

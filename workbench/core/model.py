@@ -157,6 +157,8 @@ class Dataset:
     notices: tuple[str, ...] = ()
     """Plain-words notices about the load (encoding fallback, re-sorting, skipped cells)."""
     encoding: str = "utf-8"
+    source: Any = None
+    """The database table or query the rows came from (``workbench.core.data.sql.SqlSource``); None for a file."""
     count_over_size: str | None = None
     """Count data: "file:row:column: ..." of the first count larger than its sample size, or None.
     Defects (c, u) may outnumber units; p and np charts refuse such data with this message."""

@@ -123,26 +123,36 @@ def _advice(differ: bool, p: float | None, share: float | None, streams, mean) -
             "to a common aim, or charting each stream on its own")
 
 
-def breakdown(a: Analysis, position: int) -> Breakdown:
-    """Per-stream view of the subgroup at ``position``."""
+def breakdown(a: Analysis, position: int, readings: tuple[tuple[str, ...], np.ndarray] | None = None) -> Breakdown:
+    """Per-stream view of the subgroup at ``position``.
+
+    ``readings``: (stream names, values) of that subgroup fetched from where the data live, for summary data
+    aggregated in a database; the streams then have no history here (their own mean, SD and z are not known)."""
     ds = a.dataset
     label = str(ds.labels[position])
     if ds.counts is not None:
         return _count_breakdown(a, position, label)
-    if ds.values is None:
+    if ds.values is None and readings is None:
         return Breakdown(position, label, (), float(a.location.values[position]), float("nan"), None,
                          "summary data hold no readings per stream")
-    row = ds.values[position]
-    ex_row = a.excluded_cells[position] if a.excluded_cells is not None else np.zeros(ds.k, bool)
+    if ds.values is None:
+        names, row = tuple(readings[0]), np.asarray(readings[1], dtype=np.float64)
+        ex_row = np.zeros(len(names), bool)
+        if a.excluded_subgroups[position]:
+            ex_row[:] = True
+        mean = sd = np.full(len(names), np.nan)
+    else:
+        names, row = ds.streams, ds.values[position]
+        ex_row = a.excluded_cells[position] if a.excluded_cells is not None else np.zeros(ds.k, bool)
+        mean, sd, _n = _history(a)
     cell_only = ex_row & ~a.excluded_subgroups[position]
     use = ~np.isnan(row) & ~cell_only
     vals = row[use]
-    mean, sd, _n = _history(a)
     sub_mean = float(vals.mean()) if vals.size else float("nan")
     rng = float(vals.max() - vals.min()) if vals.size >= 2 else float("nan")
     sw = a.sigma_within if np.isfinite(a.sigma_within) and a.sigma_within > 0 else float("nan")
     rows = []
-    for j, name in enumerate(ds.streams):
+    for j, name in enumerate(names):
         x = float(row[j])
         dev = x - sub_mean
         with np.errstate(invalid="ignore", divide="ignore"):

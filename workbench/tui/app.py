@@ -231,6 +231,14 @@ def request_from_args(args: argparse.Namespace) -> OpenRequest:
     """What ``workbench [open] ...`` asks to open (no path: the bundled demo)."""
     from workbench.options import layout_request_from_args, settings_from_args
     from workbench.demo import demo_path, demo_settings_for
+    from workbench.options import data_source
+    source = data_source(args.path, args) if getattr(args, "path", None) else None
+    if source is not None and not isinstance(source, str):  # a database table or query
+        settings = settings_from_args(args)
+        case = getattr(args, "case", None)
+        return OpenRequest(path=Path(source.stem), request=layout_request_from_args(args), settings=settings,
+                           author=getattr(args, "author", None), case_path=Path(case) if case else None,
+                           settings_given=settings != type(settings)(), source=source)
     path = Path(args.path) if getattr(args, "path", None) else demo_path()
     if not path.exists():
         raise WorkbenchError(f"no such file: {path}")

@@ -44,6 +44,8 @@ class OpenRequest:
     """The layout request came from the mapping dialog (any load error asks again)."""
     settings_given: bool = False
     """Setup options were given on the command line (they apply to a new case only)."""
+    source: object = None
+    """A database table or query (``SqlSource``) to read instead of the file ``path``."""
 
     @property
     def is_case(self) -> bool:
@@ -149,13 +151,18 @@ def _load(path: Path, request: LayoutRequest, mapped: bool = False) -> Dataset:
         raise
 
 
+def _load_source(req: OpenRequest) -> Dataset:
+    from workbench.core.data.reader import load
+    return load(req.source, req.request)
+
+
 def open_session(req: OpenRequest, progress: Progress = lambda what, f: None) -> "Session":
     """Open or create the case that ``req`` names (raises CaseExists / NeedMapping / WorkbenchError)."""
     if req.is_case:
         progress(f"opening {req.path.name}", 0.05)
         case = Case.open(req.path, author=req.author)
         try:
-            progress(f"reading {Path(case.data.path).name}", 0.2)
+            progress(f"reading {case.data.source.shown if case.data.source else Path(case.data.path).name}", 0.2)
             dataset = case.load_dataset()
             progress(f"analysing {dataset.m:,} subgroups", 0.6)
             analysis = case.analyse(dataset)
@@ -173,8 +180,8 @@ def open_session(req: OpenRequest, progress: Progress = lambda what, f: None) ->
     if req.dataset is not None:
         dataset = req.dataset
     else:
-        progress(f"reading {req.path.name}", 0.1)
-        dataset = _load(req.path, req.request, req.mapped)
+        progress(f"reading {req.source.shown if req.source is not None else req.path.name}", 0.1)
+        dataset = _load(req.path, req.request, req.mapped) if req.source is None else _load_source(req)
     progress(f"analysing {dataset.m:,} subgroups", 0.6)
     analysis = analyse(dataset, req.settings)
     progress(f"creating {case_path.name}", 0.9)

@@ -204,7 +204,8 @@ class Case:
                    case_path: str | Path | None = None, limits: dict | None = None) -> "Case":
         """A new case for an already loaded dataset (``limits``: its first limits snapshot)."""
         author = default_author(author)
-        path = Path(case_path) if case_path else default_case_path(dataset.path)
+        src = dataset.source
+        path = Path(case_path) if case_path else default_case_path(src.stem if src is not None else dataset.path)
         if not path.name.endswith(SUFFIX):
             raise WorkbenchError(f"{path}: a case file's name ends in {SUFFIX}")
         if path.exists():
@@ -219,8 +220,10 @@ class Case:
         try:
             if path.exists():
                 raise WorkbenchError(f"{path} already exists: open it, or give another name with -o")
-            data_dict = DataRef(_relative(dataset.path, path.parent), dataset.sha256, int(dataset.rows),
-                                int(dataset.size_bytes), dataset.layout, request).as_dict()
+            if src is not None:  # a database: its URL (SQLite path relative to the case file), never a password
+                src = src.relative_to(path.parent)
+            data_dict = DataRef(src.url if src is not None else _relative(dataset.path, path.parent), dataset.sha256,
+                                int(dataset.rows), int(dataset.size_bytes), dataset.layout, request, src).as_dict()
             payload = {"settings": settings.as_dict(), "causes": list(DEFAULT_CAUSES),
                        "data_ref": sha256(canonical_json(data_dict))}
             ev = seal(_body(1, "created", payload, author, None, limits, int(dataset.size_bytes)), None)
@@ -230,7 +233,9 @@ class Case:
         except BaseException:
             lock.release()
             raise
-        return cls(path, doc, raw, author, lock, None, check_data(doc.data, path), [])
+        status = check_data(doc.data, path) if src is None else \
+            DataStatus("same", Path(src.url), int(dataset.size_bytes), f"the rows of {src.shown} were just read")
+        return cls(path, doc, raw, author, lock, None, status, [])
 
     def close(self) -> None:
         """Release the lock (the file is already written)."""
@@ -384,6 +389,8 @@ class Case:
             raise WorkbenchError(self.data_status.message)
         if not self.data_status.usable and not self.readonly:  # changed since the case was opened
             self.readonly_reason = self.data_status.message
+        if self.data.source is not None:
+            return load(self.data.source, self.data.request)
         return load(str(self.data_status.path), self.data.request)
 
     def analyse(self, dataset: Dataset, state: CaseState | None = None) -> Analysis:

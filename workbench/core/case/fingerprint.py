@@ -12,6 +12,8 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Iterable
 
+from workbench.core.model import WorkbenchError
+
 DataRef = Any
 """``format.DataRef`` (not imported: format re-exports this module)."""
 Event = Any
@@ -64,6 +66,8 @@ def check_data(ref: DataRef, case_path: Path, events: Iterable[Event] = ()) -> D
     The bytes recorded at creation and those of every later ``data-appended`` event (rows
     judged in Phase II) must still be the file's first bytes: the file may only grow.
     """
+    if getattr(ref, "source", None) is not None:  # a database: its rows read again
+        return _check_database(ref)
     path = Path(os.path.normpath(Path(case_path).parent / ref.path))
     shown = str(path)
     marks = judged_prefixes(ref, events)
@@ -110,3 +114,19 @@ def check_data(ref: DataRef, case_path: Path, events: Iterable[Event] = ()) -> D
                       f"the data file {shown} has grown by {grown} bytes (about {tail_newlines} "
                       f"row{'' if tail_newlines == 1 else 's'}) since the case was created; the new rows are "
                       "Phase II material")
+
+
+def _check_database(ref: DataRef) -> DataStatus:
+    """Read the table or query again and compare the fingerprint of its canonical rows."""
+    from workbench.core.data.reader import load
+    src = ref.source
+    try:
+        ds = load(src, ref.request)
+    except WorkbenchError as exc:
+        return DataStatus("missing", Path(src.url), None, f"the data cannot be read: {exc}")
+    if ds.sha256 == ref.sha256 and ds.rows == ref.rows:
+        return DataStatus("same", Path(src.url), ds.size_bytes,
+                          f"the rows of {src.shown} are unchanged ({ds.rows} rows, same fingerprint)")
+    return DataStatus("changed", Path(src.url), ds.size_bytes, event=1, message=
+                      f"the rows of {src.shown} have changed since the case was created ({ds.rows} rows now, "
+                      f"{ref.rows} then; the fingerprint of the canonical rows differs)")

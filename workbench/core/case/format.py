@@ -96,10 +96,16 @@ class DataRef:
     """The column mapping that was used."""
     request: LayoutRequest
     """The layout options that produced it (given again when the data are reloaded)."""
+    source: Any = None
+    """A database table or query (``workbench.core.data.sql.SqlSource``; ``path`` is then its URL without the
+    password, and ``sha256`` / ``size_bytes`` the fingerprint of the canonical rows read); None for a file."""
 
     def as_dict(self) -> dict[str, Any]:
-        return {"path": self.path, "sha256": self.sha256, "rows": self.rows, "size_bytes": self.size_bytes,
-                "layout": self.layout.as_dict(), "request": self.request.as_dict()}
+        out = {"path": self.path, "sha256": self.sha256, "rows": self.rows, "size_bytes": self.size_bytes,
+               "layout": self.layout.as_dict(), "request": self.request.as_dict()}
+        if self.source is not None:
+            out["source"] = self.source.as_dict()
+        return out
 
 
 _LAYOUT_STR = ("subgroup", "stream", "value", "time", "n", "mean", "range", "sd", "count", "size")
@@ -110,8 +116,9 @@ def data_ref_from_dict(d: Any, source: str) -> DataRef:
     where = f"{source}: data reference"
     if not isinstance(d, dict):
         raise WorkbenchError(f"{where} must be an object")
-    if set(d) != {"path", "sha256", "rows", "size_bytes", "layout", "request"}:
-        raise WorkbenchError(f"{where} needs exactly path, sha256, rows, size_bytes, layout, request")
+    if set(d) - {"source"} != {"path", "sha256", "rows", "size_bytes", "layout", "request"}:
+        raise WorkbenchError(f"{where} needs exactly path, sha256, rows, size_bytes, layout, request "
+                             "(and source for a database)")
     if not isinstance(d["path"], str) or not d["path"] or not _HEX64.fullmatch(str(d["sha256"])):
         raise WorkbenchError(f"{where} has a bad path or sha256")
     if any(type(d[k]) is not int or d[k] < 0 for k in ("rows", "size_bytes")):
@@ -123,8 +130,12 @@ def data_ref_from_dict(d: Any, source: str) -> DataRef:
         raise WorkbenchError(f"{where}: unknown layout kind {lay.get('kind')!r}")
     if not isinstance(req.get("skip_bad", False), bool):
         raise WorkbenchError(f"{where}: skip_bad must be true or false")
+    src = None
+    if "source" in d:
+        from workbench.core.data.sql import SqlSource
+        src = SqlSource.from_dict(d["source"], where, str(Path(source).parent))
     return DataRef(d["path"], d["sha256"], d["rows"], d["size_bytes"], Layout.from_dict(lay),
-                   LayoutRequest.from_dict(req))
+                   LayoutRequest.from_dict(req), src)
 
 
 def _check_fields(d: Any, where: str, strings: tuple[str, ...], other: set[str]) -> None:

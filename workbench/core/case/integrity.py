@@ -109,7 +109,9 @@ def _recompute_limits(doc: Document, status: DataStatus) -> list[str]:
 
     def dataset_for(nbytes: int) -> Dataset:
         if nbytes not in datasets:
-            if nbytes == status.size_bytes:
+            if doc.data.source is not None and nbytes == status.size_bytes:  # a database: its rows read again
+                datasets[nbytes] = load(doc.data.source, doc.data.request)
+            elif nbytes == status.size_bytes:
                 datasets[nbytes] = load(str(status.path), doc.data.request)
             elif nbytes > (status.size_bytes or 0):
                 raise WorkbenchError(f"it was computed on {nbytes} bytes of data; the file now has {status.size_bytes}")

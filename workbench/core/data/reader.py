@@ -60,13 +60,13 @@ def _norm(name: str) -> str:
     return re.sub(r"[^0-9a-z]", "", name.lower())
 
 
-def load(path: str | os.PathLike, request: LayoutRequest = LayoutRequest()) -> Dataset:
+def load(path, request: LayoutRequest = LayoutRequest()) -> Dataset:
     """Load a data file as subgroups x streams.
 
     Parameters
     ----------
-    path : str or os.PathLike
-        A CSV / TSV (delimiter sniffed), XLSX file (first sheet), Parquet or Feather / Arrow IPC file.
+    path : str, os.PathLike or workbench.core.data.sql.SqlSource
+        A database table or query, or a CSV / TSV (delimiter sniffed), XLSX file (first sheet), Parquet or Feather / Arrow IPC file.
     request : LayoutRequest
         Overrides for the layout detection (see the module docstring).
 
@@ -84,6 +84,17 @@ def load(path: str | os.PathLike, request: LayoutRequest = LayoutRequest()) -> D
         raise WorkbenchError(f"unknown layout {request.kind!r} (choose {', '.join(LAYOUTS)})")
     if request.size and not request.count:
         raise WorkbenchError("--size needs --count (the column of counts)")
+    from workbench.core.data.sql import SqlSource
+    if isinstance(path, SqlSource) and request.kind in (None, "long"):
+        from workbench.core.data import pushdown
+        if path.aggregate:
+            return pushdown.aggregate(path, request)
+        if pushdown.count_rows(path) > pushdown.AUTO_ROWS:
+            try:
+                return pushdown.aggregate(path, request)
+            except WorkbenchError as exc:
+                if "aggregating in the database needs long data" not in str(exc):
+                    raise
     table = read_any(path, lambda names: _text_columns(names, request), _wanted(request))
     cols = list(table.frame.columns)
     r = request
@@ -91,12 +102,15 @@ def load(path: str | os.PathLike, request: LayoutRequest = LayoutRequest()) -> D
         if name is not None and name not in cols:
             raise WorkbenchError(f"{table.path}: no column {name!r} (columns: {', '.join(cols)})")
     layout = detect(table, request)
-    return _Builder(table, layout, request).build()
+    ds = _Builder(table, layout, request).build()
+    return ds if isinstance(path, (str, os.PathLike)) else dataclasses.replace(ds, source=path)
 
 
 def read_any(path, text_columns=lambda names: (), wanted=lambda names: None) -> Table:
     """A data file as a table of cells: Parquet / Feather / Arrow IPC (``wanted`` columns only), else CSV/TSV/XLSX."""
-    from workbench.core.data import columnar
+    from workbench.core.data import columnar, sql
+    if isinstance(path, sql.SqlSource):
+        return sql.read_table(path, text_columns, wanted)
     if columnar.kind_of(path) is not None:
         return columnar.read_table(path, text_columns, wanted)
     return sniff.read_table(path, text_columns)

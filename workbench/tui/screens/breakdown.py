@@ -107,7 +107,11 @@ class BreakdownScreen(Screen):
     def _breakdown(self, token: int, snap: Snapshot, p: int) -> None:
         from workbench.core.streams import breakdown
         try:
-            result = breakdown(snap.analysis, p)
+            readings = None
+            if getattr(snap.dataset.source, "pushed", None) is not None:  # aggregated: one query for this subgroup
+                from workbench.core.data.pushdown import readings_of
+                readings = readings_of(snap.dataset, p)
+            result = breakdown(snap.analysis, p, readings)
         except Exception as exc:  # shown, never raised into the UI
             self.post_message(Computed("breakdown", token, None, str(exc)))
             return
