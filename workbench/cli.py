@@ -90,8 +90,11 @@ def cmd_report(args: argparse.Namespace) -> int:
             st = states.get(key)
             return st.state if st is not None else "open"
         fmt_name = args.format
-        text = render(a, fmt_name, states, args.points)
-        if fmt_name == "json":
+        text = "" if fmt_name == "html" else render(a, fmt_name, states, args.points)
+        if fmt_name == "html":
+            from workbench.review.page import review_html
+            text = review_html(case, a)
+        elif fmt_name == "json":
             import json
             obj = json.loads(text)
             obj["case"] = case_report.case_report_json(case, a)
@@ -102,6 +105,9 @@ def cmd_report(args: argparse.Namespace) -> int:
         else:
             extra = case_report.case_report_text(case, a)
     else:
+        if args.format == "html":
+            raise WorkbenchError("--format html is the review of a case file: create one with "
+                                 "'workbench case new DATA' and report that")
         from workbench.core.data.reader import load
         from workbench.options import data_source
         ds = load(data_source(args.path, args), layout_request_from_args(args))
@@ -210,7 +216,8 @@ def build_parser() -> argparse.ArgumentParser:
                         "expected by chance on in-control data")
     r.add_argument("--by-stream", action="store_true",
                    help="add each stream charted on its own (its own individuals chart and signals)")
-    r.add_argument("--format", choices=("text", "markdown", "json"), default="text")
+    r.add_argument("--format", choices=("text", "markdown", "json", "html"), default="text",
+                   help="html: the self-contained review page of a case file (with -o FILE.html)")
     r.add_argument("-o", "--output", metavar="FILE", help="write the report to FILE")
     r.add_argument("--points", action="store_true",
                    help="JSON: include every subgroup's label and plotted values")

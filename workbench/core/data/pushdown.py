@@ -17,12 +17,13 @@ from __future__ import annotations
 
 import dataclasses
 from dataclasses import dataclass
+from typing import Callable
 
 import numpy as np
 
 from workbench.core.data import sql
 from workbench.core.data.records import frame_table
-from workbench.core.model import Dataset, Layout, LayoutRequest, WorkbenchError
+from workbench.core.model import Dataset, Layout, WorkbenchError
 
 AUTO_ROWS = 1_000_000
 """A long table or query with more rows than this is aggregated in the database without being asked."""
@@ -52,29 +53,31 @@ def count_rows(source: sql.SqlSource) -> int:
         engine.dispose()
 
 
-def raw_layout(source: sql.SqlSource, request: LayoutRequest, engine) -> Layout:
-    """The layout detected on the first rows (the same rules as for the whole table)."""
-    from workbench.core.data.reader import _text_columns, detect
+def raw_layout(source: sql.SqlSource, detect: Callable, text_columns: Callable, engine) -> Layout:
+    """The layout detected on the first rows (``detect(table)``: the loader's own rules)."""
     inner, _ = sql.select_sql(engine, source)
     names, rows = sql.run(source, f"SELECT * FROM ({inner}) AS workbench_rows LIMIT {SAMPLE_ROWS}", engine=engine)
-    table = frame_table(source.shown, sql.to_frame(names, rows), "0" * 64, 0, "sql",
-                        lambda n: _text_columns(n, request))
-    lay = detect(table, request)
+    table = frame_table(source.shown, sql.to_frame(names, rows), "0" * 64, 0, "sql", text_columns)
+    lay = detect(table)
     if lay.kind != "long" or lay.count or lay.value is None:
-        raise WorkbenchError(f"{source.shown}: aggregating in the database needs long data (one reading a row, with "
-                             f"a subgroup column); these rows read as {lay.kind}")
+        raise WorkbenchError(f"{source.shown}: {NEEDS_LONG}; these rows read as {lay.kind}")
     return lay
 
 
-def aggregate(source: sql.SqlSource, request: LayoutRequest = LayoutRequest()) -> Dataset:
-    """The per-subgroup n, mean, range (and SD) from one GROUP BY, as a summary-layout Dataset."""
-    from workbench.core.data.reader import _Builder
+NEEDS_LONG = "aggregating in the database needs long data (one reading a row, with a subgroup column)"
+
+
+def aggregate_table(source: sql.SqlSource, detect: Callable, text_columns: Callable):
+    """One GROUP BY: (table of per-subgroup n, mean, range, SD; its summary layout; the source; a notice).
+
+    ``detect(table)`` and ``text_columns(names)`` are the loader's rules, used on the first rows."""
     engine = sql.engine_of(source)
     try:
-        lay = raw_layout(source, request, engine)
+        lay = raw_layout(source, detect, text_columns, engine)
         q = lambda c: sql.quote(engine, c)  # noqa: E731
         key, v = q(lay.subgroup), q(lay.value)
-        sd = f"STDDEV_SAMP({v})" if engine.dialect.name != "sqlite" else "NULL"
+        has_sd = engine.dialect.name != "sqlite"
+        sd = f"STDDEV_SAMP({v})" if has_sd else "NULL"
         first = f"MIN({q(lay.time)})" if lay.time and lay.time != lay.subgroup else "NULL"
         inner, _ = sql.select_sql(engine, source)
         statement = (f"SELECT {key} AS workbench_key, COUNT({v}) AS n, AVG({v}) AS mean, MAX({v}) - MIN({v}) AS range, "
@@ -87,21 +90,17 @@ def aggregate(source: sql.SqlSource, request: LayoutRequest = LayoutRequest()) -
     if not rows:
         raise WorkbenchError(f"{source.shown}: no readings in column {lay.value!r}")
     digest, size = sql.fingerprint(names, rows)
-    keys = tuple(r[0] for r in rows)
     frame = sql.to_frame([lay.subgroup, "n", "mean", "range", "sd", "first_time"], rows)
-    has_sd = engine.dialect.name != "sqlite"
     time = lay.subgroup if lay.time == lay.subgroup else ("first_time" if first != "NULL" else None)
     keep = [lay.subgroup, "n", "mean", "range"] + (["sd"] if has_sd else []) + (["first_time"] if time == "first_time"
                                                                                else [])
     table = frame_table(source.shown, frame[keep], digest, size, "sql", lambda n: {lay.subgroup})
     summary = Layout("summary", subgroup=lay.subgroup, time=time, n="n", mean="mean", range="range",
                      sd="sd" if has_sd else None, detected=lay.detected)
-    ds = _Builder(table, summary, LayoutRequest(kind="summary", subgroup=lay.subgroup)).build()
     notice = (f"aggregated in the database: {len(rows):,} subgroups of {lay.value!r} by {lay.subgroup!r} from one "
               "GROUP BY (n, mean, range" + (", SD" if has_sd else "") + "); the readings stay in the database")
-    pushed = Pushed(lay, keys, statement)
-    return dataclasses.replace(ds, source=dataclasses.replace(source, aggregate=True, pushed=pushed),
-                               notices=ds.notices + (notice,))
+    pushed = Pushed(lay, tuple(r[0] for r in rows), statement)
+    return table, summary, dataclasses.replace(source, aggregate=True, pushed=pushed), notice
 
 
 def readings_of(ds: Dataset, position: int) -> tuple[tuple[str, ...], np.ndarray]:

@@ -87,14 +87,16 @@ def load(path, request: LayoutRequest = LayoutRequest()) -> Dataset:
     from workbench.core.data.sql import SqlSource
     if isinstance(path, SqlSource) and request.kind in (None, "long"):
         from workbench.core.data import pushdown
-        if path.aggregate:
-            return pushdown.aggregate(path, request)
-        if pushdown.count_rows(path) > pushdown.AUTO_ROWS:
+        if path.aggregate or pushdown.count_rows(path) > pushdown.AUTO_ROWS:
             try:
-                return pushdown.aggregate(path, request)
+                table, summary, src, notice = pushdown.aggregate_table(
+                    path, lambda t: detect(t, request), lambda names: _text_columns(names, request))
             except WorkbenchError as exc:
-                if "aggregating in the database needs long data" not in str(exc):
+                if path.aggregate or pushdown.NEEDS_LONG not in str(exc):
                     raise
+            else:
+                ds = _Builder(table, summary, LayoutRequest(kind="summary", subgroup=summary.subgroup)).build()
+                return dataclasses.replace(ds, source=src, notices=ds.notices + (notice,))
     table = read_any(path, lambda names: _text_columns(names, request), _wanted(request))
     cols = list(table.frame.columns)
     r = request
