@@ -115,7 +115,7 @@ def cmd_report(args: argparse.Namespace) -> int:
         excl = [e for e, _ in _parse_exclusions(args.exclude, ds)]
         a = analyse(ds, settings, excl)
         text = render(a, args.format, with_values=args.points)
-    if args.summary or args.by_stream:
+    if (args.summary or args.by_stream) and args.format != "html":
         from workbench.core.report_more import add_sections
         text = add_sections(text, a, args.format, state_of, args.summary, args.by_stream)
     out = text + (("\n" + extra) if extra else "")
