@@ -39,8 +39,7 @@ def _isolate_home(tmp_path, monkeypatch):
 
 # ---- a real PostgreSQL server (session-scoped) -----------------------------------------------
 
-PG_PASSWORD = "Fill-Head-7#q"
-"""The test role's password: every test that prints or writes something checks it never appears."""
+from sources_common import PG_PASSWORD  # noqa: E402 (the test role's password; never printed or written)
 
 
 @pytest.fixture(scope="session")

@@ -8,6 +8,9 @@ from workbench.core.analysis import analyse
 from workbench.core.model import Settings, Spec
 from workbench.core.report import render
 
+PG_PASSWORD = "Fill-Head-7#q"
+"""The PostgreSQL test role's password: every test that prints or writes something checks it never appears."""
+
 DEMO_SPEC = Settings(spec=Spec(lsl=497.0, usl=503.0))
 """The demo's stated specification (demo_data/README.md: 497.0–503.0 mL)."""
 

@@ -104,6 +104,8 @@ def cmd_report(args: argparse.Namespace) -> int:
             extra = case_report.case_report_markdown(case, a)
         else:
             extra = case_report.case_report_text(case, a)
+    elif args.all_characteristics:
+        return _report_overview(args, inputs)
     else:
         if args.format == "html":
             raise WorkbenchError("--format html is the review of a case file: create one with "
@@ -112,6 +114,10 @@ def cmd_report(args: argparse.Namespace) -> int:
         from workbench.options import data_source
         ds = load(data_source(args.path, args), layout_request_from_args(args))
         settings = settings_from_args(args, _default_settings_for(args.path))
+        if getattr(args, "specs", None) and ds.characteristic:
+            from workbench.core.data.characteristics import read_specs
+            from workbench.core.overview import settings_for
+            settings = settings_for(settings, read_specs(args.specs).get(ds.characteristic))
         excl = [e for e, _ in _parse_exclusions(args.exclude, ds)]
         a = analyse(ds, settings, excl)
         text = render(a, args.format, with_values=args.points)
@@ -125,6 +131,25 @@ def cmd_report(args: argparse.Namespace) -> int:
     if args.fail_on_signal and open_signals(a, states):
         return 1
     return 0
+
+
+def _report_overview(args: argparse.Namespace, inputs: list[Path]) -> int:
+    """``report DATA --all-characteristics``: the overview, headless."""
+    from workbench.core import overview as O
+    from workbench.core.data.characteristics import read_specs
+    from workbench.options import data_source
+    if args.format == "html":
+        raise WorkbenchError("--all-characteristics gives text, markdown or json")
+    src = data_source(args.path, args)
+    request = layout_request_from_args(args)
+    if request.characteristic:
+        raise WorkbenchError("--all-characteristics lists every characteristic: leave out --characteristic")
+    settings = settings_from_args(args, _default_settings_for(args.path))
+    rows = O.overview(src, request, settings, read_specs(args.specs) if args.specs else None)
+    shown = getattr(src, "shown", str(src))
+    out = O.as_json(rows, shown) if args.format == "json" else O.as_text(rows, shown, args.format == "markdown")
+    _emit(args, out, inputs)
+    return 1 if args.fail_on_signal and any(r.open_signals for r in rows) else 0
 
 
 def _report_case_without_data(case, args: argparse.Namespace, why: str) -> int:
@@ -180,6 +205,9 @@ def cmd_perf(args: argparse.Namespace) -> int:
     if getattr(args, "old_name", False):
         print("workbench: 'workbench bench' is now 'workbench perf' (the old name goes in the next release)",
               file=sys.stderr)
+    if getattr(args, "postgres", False):  # opt-in: a throwaway PostgreSQL server and a 10 M-row table
+        from workbench.perf_postgres import run
+        return run(args.postgres_rows)
     from workbench.perf import PARTS, run_perf
     only = tuple(x.strip() for x in (args.only or "").split(",") if x.strip())
     unknown = [x for x in only if x not in PARTS]
@@ -222,6 +250,8 @@ def build_parser() -> argparse.ArgumentParser:
     r.add_argument("--points", action="store_true",
                    help="JSON: include every subgroup's label and plotted values")
     r.add_argument("--fail-on-signal", action="store_true", help="exit 1 when an open signal remains")
+    r.add_argument("--all-characteristics", action="store_true",
+                   help="data with several characteristics: one row each, what needs attention first")
     r.set_defaults(func=cmd_report)
 
     o = sub.add_parser("open", help="open a data file or a case file in the workbench")
@@ -239,6 +269,10 @@ def build_parser() -> argparse.ArgumentParser:
         b.add_argument("--only", metavar="PARTS", help="comma list of: report, long, open, rules, recompute, "
                        "append, keypress, case")
         b.add_argument("--quick", action="store_true", help="skip the slow parts (processes, TUI, case growth)")
+        b.add_argument("--postgres", action="store_true", help="only the database figure: a PostgreSQL table "
+                       "aggregated in the database, opened in the workbench, against the database's own GROUP BY")
+        b.add_argument("--postgres-rows", type=_scale, default=10_000_000, metavar="ROWS",
+                       help="rows of the PostgreSQL table (default 10M)")
         b.set_defaults(func=cmd_perf, old_name=name == "bench")
     # keep the old name out of the command list (argparse lists every subparser that has a help entry)
     sub._choices_actions = [a for a in sub._choices_actions if a.dest != "bench"]

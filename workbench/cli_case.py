@@ -79,6 +79,10 @@ def cmd_new(args: argparse.Namespace) -> int:
     settings = settings_from_args(args, demo_settings_for(args.data))
     from workbench.options import data_source
     dataset = load(data_source(args.data, args), request)
+    if getattr(args, "specs", None) and dataset.characteristic:
+        from workbench.core.data.characteristics import read_specs
+        from workbench.core.overview import settings_for
+        settings = settings_for(settings, read_specs(args.specs).get(dataset.characteristic))
     analysis = analyse(dataset, settings)
     with Case.create_for(dataset, request, settings, args.author, args.output, limits_snapshot(analysis)) as case:
         print(f"{printable(str(case.path))}: created for {printable(dataset.source.shown if dataset.source else args.data)} — {dataset.m} subgroups, "

@@ -32,6 +32,9 @@ def add_data_options(p: argparse.ArgumentParser) -> None:
     g.add_argument("--count", metavar="COL", help="count data: column with defectives or defects")
     g.add_argument("--size", metavar="COL", help="count data: column with the sample size")
     g.add_argument("--skip-bad", action="store_true", help="skip and count non-numeric cells instead of stopping")
+    g.add_argument("--characteristic", metavar="NAME", help="data with several characteristics: the one to chart")
+    g.add_argument("--specs", metavar="FILE.csv", help="specifications per characteristic (name, LSL, target, USL, "
+                   "unit); used when no --lsl/--usl is given")
     d = p.add_argument_group("database (when the data argument is a URL such as sqlite:///plant.db)")
     d.add_argument("--table", metavar="NAME", help="the table to read")
     d.add_argument("--query", metavar="SQL", help="a SELECT statement to read instead of a table")
@@ -88,7 +91,7 @@ def layout_request_from_args(args: argparse.Namespace) -> LayoutRequest:
     streams = tuple(s.strip() for s in (args.streams or "").split(",") if s.strip())
     return LayoutRequest(kind=args.layout, subgroup=args.subgroup, stream=args.stream, value=args.value,
                          time=args.time, streams=streams, count=args.count, size=args.size,
-                         skip_bad=bool(args.skip_bad))
+                         skip_bad=bool(args.skip_bad), characteristic=getattr(args, "characteristic", None))
 
 
 _SETTING_ARGS = {"chart": "chart", "sigma": "sigma", "rules": "rules", "spread_rules": "spread_rules",

@@ -6,7 +6,7 @@ from pathlib import Path
 
 import pytest
 
-from conftest import PG_PASSWORD
+from sources_common import PG_PASSWORD
 from workbench.cli import main
 
 

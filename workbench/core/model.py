@@ -91,10 +91,12 @@ class LayoutRequest:
     count: str | None = None
     size: str | None = None
     skip_bad: bool = False
+    characteristic: str | None = None
+    """The one characteristic to load from data that hold several (``--characteristic``)."""
 
     def as_dict(self) -> dict[str, Any]:
         out: dict[str, Any] = {}
-        for name in ("kind", "subgroup", "stream", "value", "time", "count", "size"):
+        for name in ("kind", "subgroup", "stream", "value", "time", "count", "size", "characteristic"):
             v = getattr(self, name)
             if v is not None:
                 out[name] = v
@@ -109,7 +111,7 @@ class LayoutRequest:
         return cls(
             kind=d.get("kind"), subgroup=d.get("subgroup"), stream=d.get("stream"), value=d.get("value"),
             time=d.get("time"), streams=tuple(d.get("streams", ())), count=d.get("count"), size=d.get("size"),
-            skip_bad=bool(d.get("skip_bad", False)),
+            skip_bad=bool(d.get("skip_bad", False)), characteristic=d.get("characteristic"),
         )
 
 
@@ -157,6 +159,8 @@ class Dataset:
     notices: tuple[str, ...] = ()
     """Plain-words notices about the load (encoding fallback, re-sorting, skipped cells)."""
     encoding: str = "utf-8"
+    characteristic: str | None = None
+    """The characteristic these readings are of, when the data hold several (None otherwise)."""
     source: Any = None
     """The database table or query the rows came from (``workbench.core.data.sql.SqlSource``); None for a file."""
     count_over_size: str | None = None

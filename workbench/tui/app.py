@@ -10,6 +10,7 @@ from textual import on, work
 from textual.app import App
 from textual.binding import Binding
 
+from workbench.core.data.characteristics import ManyCharacteristics
 from workbench.core.model import WorkbenchError
 
 from workbench.tui.commands import WorkbenchCommands
@@ -17,8 +18,8 @@ from workbench.tui.keys import APP_BINDINGS
 from workbench.tui.dialogs.choice import ChoiceDialog
 from workbench.tui.dialogs.mapping import MappingDialog
 from workbench.tui.flows import Flows
-from workbench.tui.messages import (ActionDone, ActionFailed, LockTaken, OpenFailed, OpenNeedsChoice, OpenNeedsMapping, OpenProgress,
-                       SessionReady)
+from workbench.tui.messages import (ActionDone, ActionFailed, LockTaken, OpenFailed, OpenNeedsCharacteristic,
+                                    OpenNeedsChoice, OpenNeedsMapping, OpenProgress, SessionReady)
 from workbench.tui.watching import Watching
 from workbench.tui.screens.bench import BenchScreen
 from workbench.tui.screens.loading import LoadingScreen
@@ -76,6 +77,15 @@ class WorkbenchApp(Watching, Flows, App[int]):
             self.post_message(OpenNeedsChoice(exc.case_path, exc.summary))
         except NeedMapping as exc:
             self.post_message(OpenNeedsMapping(exc))
+        except ManyCharacteristics:
+            from workbench.core.overview import overview
+            try:
+                src = req.source if req.source is not None else str(req.path)
+                rows = overview(src, req.request, req.settings, req.specs)
+            except (WorkbenchError, OSError) as exc:
+                self.post_message(OpenFailed(str(exc)))
+            else:
+                self.post_message(OpenNeedsCharacteristic(getattr(src, "shown", str(req.path.name)), rows))
         except (WorkbenchError, OSError) as exc:
             self.post_message(OpenFailed(str(exc)))
         except Exception as exc:  # a fault, not bad input: still one line, never a dead screen
@@ -117,6 +127,18 @@ class WorkbenchApp(Watching, Flows, App[int]):
                 self._reopen(replace(self.request, request=request, mapped=True))
 
         self.push_screen(MappingDialog(str(err), err.path.name, err.columns, err.samples, self.request.request), mapped)
+
+    @on(OpenNeedsCharacteristic)
+    def open_overview(self, msg: OpenNeedsCharacteristic) -> None:
+        from workbench.tui.screens.overview import OverviewScreen
+
+        def chosen(name: str | None) -> None:
+            if name is None:
+                self.exit(0)
+            else:  # the loading screen is under the overview; the bench replaces it when the case is open
+                self._reopen(replace(self.request, request=replace(self.request.request, characteristic=name)))
+
+        self.push_screen(OverviewScreen(msg.source, msg.rows), chosen)
 
     def _reopen(self, req: OpenRequest) -> None:
         self.request = req
@@ -238,7 +260,7 @@ def request_from_args(args: argparse.Namespace) -> OpenRequest:
         case = getattr(args, "case", None)
         return OpenRequest(path=Path(source.stem), request=layout_request_from_args(args), settings=settings,
                            author=getattr(args, "author", None), case_path=Path(case) if case else None,
-                           settings_given=settings != type(settings)(), source=source)
+                           settings_given=settings != type(settings)(), source=source, specs=_specs(args))
     path = Path(args.path) if getattr(args, "path", None) else demo_path()
     if not path.exists():
         raise WorkbenchError(f"no such file: {path}")
@@ -250,7 +272,12 @@ def request_from_args(args: argparse.Namespace) -> OpenRequest:
     return OpenRequest(path=path, request=layout_request_from_args(args), settings=settings,
                        author=getattr(args, "author", None), case_path=Path(case) if case else None,
                        reuse="reuse" if not getattr(args, "path", None) else "ask",
-                       settings_given=settings != (base or type(settings)()))
+                       settings_given=settings != (base or type(settings)()), specs=_specs(args))
+
+
+def _specs(args: argparse.Namespace) -> dict | None:
+    from workbench.core.data.characteristics import read_specs
+    return read_specs(args.specs) if getattr(args, "specs", None) else None
 
 
 def run_app(args: argparse.Namespace) -> int:

@@ -32,6 +32,15 @@ class OpenNeedsMapping(Message):
 
 
 @dataclass
+class OpenNeedsCharacteristic(Message):
+    """The data hold several characteristics and none was chosen: show the overview."""
+
+    source: str
+    rows: Any
+    """core.overview rows, sorted by what needs attention first."""
+
+
+@dataclass
 class OpenFailed(Message):
     message: str
 

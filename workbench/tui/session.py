@@ -46,6 +46,8 @@ class OpenRequest:
     """Setup options were given on the command line (they apply to a new case only)."""
     source: object = None
     """A database table or query (``SqlSource``) to read instead of the file ``path``."""
+    specs: dict | None = None
+    """Specifications per characteristic (``--specs``), used when no --lsl/--usl was given."""
 
     @property
     def is_case(self) -> bool:
@@ -141,9 +143,12 @@ def read_columns(path: Path) -> tuple[tuple[str, ...], dict[str, str]]:
 
 
 def _load(path: Path, request: LayoutRequest, mapped: bool = False) -> Dataset:
+    from workbench.core.data.characteristics import ManyCharacteristics
     from workbench.core.data.reader import load
     try:
         return load(str(path), request)
+    except ManyCharacteristics:
+        raise
     except WorkbenchError as exc:
         if mapped or is_detection_error(exc):
             cols, samples = read_columns(path)
@@ -170,7 +175,7 @@ def open_session(req: OpenRequest, progress: Progress = lambda what, f: None) ->
             case.close()
             raise
         return Session(case, dataset, analysis, created=False)
-    case_path = Path(req.case_path) if req.case_path else default_case_path(req.path)
+    case_path = Path(req.case_path) if req.case_path else default_case_path(req.path, req.request.characteristic)
     if case_path.exists():
         if req.reuse == "ask":
             raise CaseExists(case_path, case_summary(case_path))
@@ -182,6 +187,9 @@ def open_session(req: OpenRequest, progress: Progress = lambda what, f: None) ->
     else:
         progress(f"reading {req.source.shown if req.source is not None else req.path.name}", 0.1)
         dataset = _load(req.path, req.request, req.mapped) if req.source is None else _load_source(req)
+    if req.specs and dataset.characteristic:
+        from workbench.core.overview import settings_for
+        req = replace(req, settings=settings_for(req.settings, req.specs.get(dataset.characteristic)))
     progress(f"analysing {dataset.m:,} subgroups", 0.6)
     analysis = analyse(dataset, req.settings)
     progress(f"creating {case_path.name}", 0.9)

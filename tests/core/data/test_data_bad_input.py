@@ -61,7 +61,7 @@ CASES = [
     ("numbers are not times", b"lot,made,A\nL1,1,1\n", R(time="made"), r": column 'made' holds numbers, not times$"),
     ("no numbers", b"a,b\nx,y\n", R(), r": no column of numbers found \(columns: a, b\)$"),
     ("several values in long", b"batch,head,v,w\nb1,H1,1,2\nb1,H2,2,3\n", R(),
-     r": several number columns \(v, w\): give --value"),
+     r" holds 2 characteristics \(v, w\): give --characteristic NAME"),
     ("long without key", b"A,B\n1,2\n", R(kind="long"), r": long data need a subgroup column: give --subgroup$"),
     ("attribute as wide", b"batch,c\nb1,1\n", R(count="c", kind="wide"), r": attribute data \(--count\) are long or individuals"),
 ]

@@ -8,7 +8,7 @@ from pathlib import Path
 
 import pytest
 
-from conftest import PG_PASSWORD
+from sources_common import PG_PASSWORD
 from sources_common import assert_same, report_of
 from workbench.core.data import sql
 from workbench.core.data.reader import load

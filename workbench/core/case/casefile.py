@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import json
 import os
+import re
 from pathlib import Path
 from typing import Any
 
@@ -34,9 +35,10 @@ __all__ = [
 ]
 
 
-def default_case_path(data_path: str | Path) -> Path:
-    """``casefiles/<data-stem>.case.json`` relative to the current folder."""
-    return Path("casefiles") / (Path(data_path).stem + SUFFIX)
+def default_case_path(data_path: str | Path, characteristic: str | None = None) -> Path:
+    """``casefiles/<data-stem>.case.json`` (``<data-stem>-<characteristic>.case.json``) relative to the current folder."""
+    extra = "" if not characteristic else "-" + (re.sub(r"[^0-9A-Za-z_-]+", "_", characteristic) or "characteristic")
+    return Path("casefiles") / (Path(data_path).stem + extra + SUFFIX)
 
 
 def _relative(data_path: str | Path, folder: Path) -> str:
@@ -205,7 +207,8 @@ class Case:
         """A new case for an already loaded dataset (``limits``: its first limits snapshot)."""
         author = default_author(author)
         src = dataset.source
-        path = Path(case_path) if case_path else default_case_path(src.stem if src is not None else dataset.path)
+        path = Path(case_path) if case_path else default_case_path(src.stem if src is not None else dataset.path,
+                                                                   dataset.characteristic)
         if not path.name.endswith(SUFFIX):
             raise WorkbenchError(f"{path}: a case file's name ends in {SUFFIX}")
         if path.exists():

@@ -109,7 +109,7 @@ class DataRef:
 
 
 _LAYOUT_STR = ("subgroup", "stream", "value", "time", "n", "mean", "range", "sd", "count", "size")
-_REQUEST_STR = ("kind", "subgroup", "stream", "value", "time", "count", "size")
+_REQUEST_STR = ("kind", "subgroup", "stream", "value", "time", "count", "size", "characteristic")
 
 
 def data_ref_from_dict(d: Any, source: str) -> DataRef:

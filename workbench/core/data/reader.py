@@ -52,6 +52,7 @@ _N = ("n", "size", "count", "samplesize", "subgroupsize")
 _MEAN = ("mean", "avg", "average", "xbar")
 _RANGE = ("range", "r")
 _SD = ("sd", "s", "stdev", "std", "stddev")
+_CHARACTERISTIC = frozenset("characteristic feature parameter measurand measure property variable".split())
 _COUNT = ("rejected", "rejects", "defects", "defectives", "nonconforming")
 _SIZE = ("inspected", "size", "n", "units")
 
@@ -103,8 +104,22 @@ def load(path, request: LayoutRequest = LayoutRequest()) -> Dataset:
     for name in (r.subgroup, r.stream, r.value, r.time, r.count, r.size, *r.streams):
         if name is not None and name not in cols:
             raise WorkbenchError(f"{table.path}: no column {name!r} (columns: {', '.join(cols)})")
+    found = _characteristics(table, request)
+    if found is not None:
+        from workbench.core.data.characteristics import ManyCharacteristics, pick
+        if request.characteristic is None:
+            raise ManyCharacteristics(table.path, found.names)
+        table = pick(table, found, request.characteristic)
+    elif request.characteristic is not None:
+        raise WorkbenchError(f"{table.path}: --characteristic {request.characteristic!r}: these data hold one "
+                             "characteristic (no characteristic column, and no several measured columns)")
     layout = detect(table, request)
     ds = _Builder(table, layout, request).build()
+    if found is not None:
+        ds = dataclasses.replace(ds, characteristic=request.characteristic,
+                                 notices=ds.notices + (f"characteristic {request.characteristic} "
+                                                       f"({found.names.index(request.characteristic) + 1} of "
+                                                       f"{len(found.names)})",))
     return ds if isinstance(path, (str, os.PathLike)) else dataclasses.replace(ds, source=path)
 
 
@@ -137,9 +152,42 @@ def _wanted(req: LayoutRequest):
     return pick
 
 
+def characteristics_of(path, request: LayoutRequest = LayoutRequest()) -> tuple[str, ...]:
+    """The characteristics the data hold (empty for data of one characteristic)."""
+    table = read_any(path, lambda names: _text_columns(names, request))
+    found = _characteristics(table, request)
+    return () if found is None else found.names
+
+
+def _characteristics(table: Table, req: LayoutRequest):
+    """How the table holds several characteristics (see ``characteristics``), or None."""
+    from workbench.core.data import characteristics as CH
+    if req.count or req.streams or req.kind in ("wide", "summary"):
+        return None
+    cols = list(table.frame.columns)
+    norm = {c: _norm(c) for c in cols}
+    col = CH.named_column(table, {req.subgroup, req.stream, req.time, req.value})
+    if col is not None:
+        names = CH.names_in(table, col)
+        return CH.Found(col, names) if names else None
+    if req.value:
+        return None
+    key = req.subgroup or _find_key(table, cols, norm)[0]
+    time = _find_time(req, key, cols, norm)
+    repeats = key is not None and sniff.repeats(table, key, sniff.as_times(table, key) if key == time else None)
+    stream = req.stream or (_find_stream(table, cols, norm, key, {key, time}) if repeats else None)
+    if not (req.kind == "individuals" or (key is not None and (req.kind == "long" or (repeats and stream is not None)))):
+        return None
+    numbers = [c for c in cols if c not in {key, time, stream} and sniff.column_kind(table, c) == "number"]
+    if any(norm[c] in _COUNT for c in numbers) and any(norm[c] in _SIZE for c in numbers):
+        return None  # counts with their sample sizes (attribute data), not two characteristics
+    return CH.Found(None, tuple(numbers)) if len(numbers) >= 2 else None
+
+
 def _text_columns(names: list[str], req: LayoutRequest) -> set[str]:
     out = {n for n in names if _KEY.match(_norm(n)) or _norm(n) in _STREAM}
     out |= {n for n in (req.subgroup, req.stream, req.time) if n}
+    out |= {n for n in names if _norm(n) in _CHARACTERISTIC}
     return out - {n for n in (req.value, req.count, req.size, *req.streams) if n}
 
 
