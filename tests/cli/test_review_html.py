@@ -49,8 +49,15 @@ def test_holds_every_signal_key_event_hash_and_the_head_hash(review):
     head = rep["case"]["integrity"]["head_hash"]
     assert re.search(r'id="head-hash">' + head + "<", page)
     assert page.count("<svg") == len(rep["charts"]) == 2  # X̄ and R drawn as SVG
-    # Exclusion with its reason and the limits before → after, in words the reader can check.
-    assert "centre 500.102 → 500.091" in page
+    # The exclusion's limits before → after: [definition] the X̄ centre is the mean of the subgroup means,
+    # with and without the excluded subgroup, computed here from the demo file.
+    import pandas as pd
+    df = pd.read_csv(DEMO)
+    means = df[[f"H{i}" for i in range(1, 7)]].mean(axis=1)
+    before, after = means.mean(), means[df["time"] != "2026-03-03 15:30"].mean()
+    shown = re.search(r"xbar: centre ([0-9.]+) → ([0-9.]+)", page)
+    assert shown, "no before → after centre for the X̄ chart"
+    assert abs(float(shown[1]) - before) < 0.006 and abs(float(shown[2]) - after) < 0.006
 
 
 def test_every_user_text_is_escaped_and_nothing_is_loaded(review):

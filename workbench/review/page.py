@@ -17,7 +17,7 @@ import html
 import json
 from typing import Any
 
-from workbench.core.text import fmt, printable
+from workbench.core.text import change_texts, fmt, printable
 
 STYLE = """
 :root { color-scheme: light; }
@@ -176,8 +176,8 @@ def _limits(before: dict | None, after: dict | None) -> str:
     lines = []
     for name in dict.fromkeys([*b, *a]):
         x, y = b.get(name) or {}, a.get(name) or {}
-        bits = [f"{label} {esc(fmt(x.get(k)))} → {esc(fmt(y.get(k)))}" for k, label in
-                (("center", "centre"), ("lcl", "LCL"), ("ucl", "UCL"))]
+        bits = [f"{label} {esc(b)} → {esc(a)}" for k, label in (("center", "centre"), ("lcl", "LCL"), ("ucl", "UCL"))
+                for b, a in [change_texts(x.get(k), y.get(k))]]
         lines.append(f"{esc(name)}: " + ", ".join(bits))
     return "<br>".join(lines)
 
