@@ -165,6 +165,12 @@ def _report_case_without_data(case, args: argparse.Namespace, why: str) -> int:
     elif args.format == "markdown":
         out = f"> **Data unavailable:** {case_report.md(why)}. Limits cannot be recomputed.\n\n" + \
             case_report.case_report_markdown(case, None)
+    elif args.format == "html":  # the record as escaped text in a page (charts need the data)
+        from workbench.review.page import STYLE, esc
+        body = f"DATA UNAVAILABLE: {why}. Limits cannot be recomputed.\n\n" + case_report.case_report_text(case, None)
+        out = (f"<!DOCTYPE html><html lang=\"en\"><head><meta charset=\"utf-8\"><title>Review — "
+               f"{esc(case.path.name)}</title><style>{STYLE}</style></head><body><h1>Review of "
+               f"{esc(case.path.name)}</h1><pre>{esc(body)}</pre></body></html>\n")
     else:
         out = f"DATA UNAVAILABLE: {why}. Limits cannot be recomputed.\n\n" + case_report.case_report_text(case, None)
     _emit(args, out, _report_inputs(args.path, case))

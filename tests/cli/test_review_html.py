@@ -114,3 +114,18 @@ def test_renders_in_headless_chromium_without_a_request(review, tmp_path):
              if types.get(e["type"]) == "URL_REQUEST_START_JOB" and (e.get("params") or {}).get("url")
              and e["params"].get("initiator") != "not an origin"]
     assert asked == []
+
+
+def test_case_without_its_data_still_gives_a_page(tmp_path, capsys):
+    import shutil as sh
+    data = tmp_path / "line3.csv"
+    sh.copy(DEMO, data)
+    case = tmp_path / "c.case.json"
+    assert main(["case", "new", str(data), "-o", str(case)]) == 0
+    assert main(["case", "note", str(case), NASTY]) == 0
+    data.unlink()
+    out = tmp_path / "r.html"
+    assert main(["report", str(case), "--format", "html", "-o", str(out)]) == 1  # incomplete review: exit 1
+    page = out.read_text(encoding="utf-8")
+    assert page.startswith("<!DOCTYPE html>") and "DATA UNAVAILABLE" in page and NASTY not in page
+    assert html_escaped(NASTY) in page or "&lt;script&gt;" in page
