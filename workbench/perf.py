@@ -18,7 +18,7 @@ import numpy as np
 
 from workbench.perf_data import best, parse_scale, read_csv_process, versus, write_long_csv, write_wide_csv
 
-PARTS = ("report", "long", "open", "rules", "recompute", "append", "keypress", "case")
+PARTS = ("report", "long", "open", "rules", "recompute", "append", "keypress", "filter", "case")
 """The groups of figures; ``--only`` picks some of them."""
 LARGE = 10_000_000
 """From this many readings on, the report goals of the large scale apply."""
@@ -68,7 +68,7 @@ def run_perf(readings: int = 1_000_000, streams: int = 5, quick: bool = False, o
     """Measure the goals; 0 when all are met, 1 when any is missed."""
     parts = set(only or PARTS)
     if quick:
-        parts -= {"report", "long", "open", "keypress", "case"}
+        parts -= {"report", "long", "open", "keypress", "filter", "case"}
     m = subgroups or max(readings // streams, 1)
     readings = m * streams
     board = Board()
@@ -99,6 +99,12 @@ def run_perf(readings: int = 1_000_000, streams: int = 5, quick: bool = False, o
             board.note(f"cursor move with {m:,} subgroups: {k['app_ms']:.1f} ms;  empty Textual app: "
                        f"{k['empty_ms']:.1f} ms")
             board.add("cursor move repaint / empty app keypress", k["ratio"], 3.0)
+        if "filter" in parts:  # filtering the signals list (issue 12), measured like a cursor move
+            from workbench.tui.perf_filter import measure_filter
+            f = measure_filter(m)
+            board.note(f"filtering {f['signals']:,} signals: apply {f['apply_ms']:.1f} ms, Esc clears "
+                       f"{f['clear_ms']:.1f} ms;  empty Textual app: {f['empty_ms']:.1f} ms")
+            board.add("signals filter applied or cleared / empty app keypress", f["ratio"], 3.0)
         if "case" in parts:
             _case_growth(board, Path(tmp))
     return board.verdict()

@@ -27,6 +27,10 @@ from workbench.tui.session import CaseExists, NeedMapping, OpenRequest, Session,
 from workbench.tui.view import safe
 
 
+NOTICE_SECONDS = 3.5
+"""How long a notice stays (the next key press dismisses it sooner)."""
+
+
 class WorkbenchApp(Watching, Flows, App[int]):
     """One case on the bench."""
 
@@ -154,13 +158,13 @@ class WorkbenchApp(Watching, Flows, App[int]):
         self.session, self.snapshot = msg.session, msg.snapshot
         self.switch_screen(BenchScreen())
         for notice in msg.session.notices:
-            self.notify(safe(notice), markup=False, timeout=8)
+            self.notify(safe(notice), markup=False, timeout=NOTICE_SECONDS)
         if self.request.settings_given and not msg.session.created:
             self.notify("The setup options on the command line apply to new cases; this case keeps its own "
-                        "setup (press s to change it).", markup=False, timeout=10)
+                        "setup (press s to change it).", markup=False, timeout=NOTICE_SECONDS)
         if msg.snapshot.readonly:
             self.notify(f"read-only: {safe(msg.snapshot.readonly_reason)}", markup=False, severity="warning",
-                        timeout=10)
+                        timeout=NOTICE_SECONDS)
             if msg.session.case.holder is not None:  # another session writes: try again until it lets go
                 self._lock_timer = self.set_interval(self.LOCK_RETRY_SECONDS, self.retry_lock, name="lock-retry")
         if self.watch_on_open:
@@ -196,17 +200,24 @@ class WorkbenchApp(Watching, Flows, App[int]):
 
     # -- actions recorded -------------------------------------------------------------------
 
+    async def on_event(self, event) -> None:
+        """A key press dismisses the notices on screen (before the key acts, so its own notices stay)."""
+        from textual import events
+        if isinstance(event, events.Key) and not event.is_forwarded and len(self._notifications):
+            self.clear_notifications()
+        await super().on_event(event)
+
     @on(ActionDone)
     def recorded(self, msg: ActionDone) -> None:
         self.busy = False
         self.install_snapshot(msg.change.snapshot)
-        self.notify("\n".join(msg.change.lines) or " ", title=msg.change.title, markup=False, timeout=12)
+        self.notify("\n".join(msg.change.lines) or " ", title=msg.change.title, markup=False, timeout=NOTICE_SECONDS)
 
     @on(ActionFailed)
     def not_recorded(self, msg: ActionFailed) -> None:
         self.busy = False
         self.show_busy("")
-        self.notify(msg.message, title="Not recorded", severity="error", markup=False, timeout=12)
+        self.notify(msg.message, title="Not recorded", severity="error", markup=False, timeout=NOTICE_SECONDS)
 
     def install_snapshot(self, snap: Snapshot) -> None:
         """Make ``snap`` the current state and show it on every screen of the stack."""

@@ -116,6 +116,60 @@ class Flows:
         self.push_screen(ReasonDialog(title, prompt, "Mark", required=required, needed="The cause is required"),
                          lambda r: self.act(lambda s: s.mark(key, state, r)) if r is not None else None)
 
+    # -- a range of subgroups, several signals, retractions
+
+    def range_flow(self, what: str, first: int, last: int) -> None:
+        """Exclude, restore, note or mark (explained / no-cause-found / open) every subgroup or signal of
+        first..last with one reason: one event in the trail."""
+        snap = self.snapshot
+        labels = snap.dataset.labels
+        span = f"{safe(labels[first])}..{safe(labels[last])} ({last - first + 1:,} subgroups)"
+        if what in ("exclude", "restore", "note"):
+            title = {"exclude": "Exclude", "restore": "Restore", "note": "Note on"}[what] + f" subgroups {span}"
+            prompt = {"exclude": "Why leave them all out of the limits? One reason for the whole range.",
+                      "restore": "Why do they belong in the limits after all?", "note": "The note:"}[what]
+            run = {"exclude": lambda s, r: s.exclude_range(first, last, r),
+                   "restore": lambda s, r: s.restore_range(first, last, r),
+                   "note": lambda s, r: s.note_range(first, last, r)}[what]
+            self.push_screen(ReasonDialog(title, prompt, title.split()[0]),
+                             lambda r: self.act(lambda s: run(s, r)) if r else None)
+            return
+        keys = [row.key for row in snap.marks.rows[:snap.marks.current]
+                if row.state not in ("excluded", what) and first <= row.anchor <= last]
+        self.many_flow(keys, what, (first, last), f"in subgroups {span}")
+
+    def many_flow(self, keys: list[str], state: str, span: tuple[int, int] | None, where: str) -> None:
+        if not keys:
+            self.notify(f"No signal {where} to mark {STATE_WORDS.get(state, state)}.", timeout=3)
+            return
+        required = state == "explained"
+        prompt = "What was the cause? The points stay in the limits." if required else "A note (optional):"
+        title = f"Mark {len(keys)} signal{'s' if len(keys) != 1 else ''} {where} {STATE_WORDS.get(state, state)}"
+        self.push_screen(ReasonDialog(title, prompt, "Mark", required=required, needed="The cause is required"),
+                         lambda r: self.act(lambda s: s.mark_many(keys, state, r, span)) if r is not None else None)
+
+    def retract_flow(self, seq: int | None = None) -> None:
+        """Retract event ``seq`` (None: the author's own last note, mark, exclusion or restore)."""
+        from workbench.core.case.events import RETRACTABLE
+        snap = self.snapshot
+        retracted = getattr(snap.state, "retracted", {})
+        if seq is None:
+            mine = [e for e in snap.events if e.kind in RETRACTABLE and e.author == snap.author
+                    and e.seq not in retracted]
+            if not mine:
+                self.notify("You have no note, mark, exclusion or restore to retract.", timeout=3)
+                return
+            seq = mine[-1].seq
+        ev = snap.events[seq - 1]
+        if ev.kind not in RETRACTABLE or seq in retracted:
+            why = "was already retracted" if seq in retracted else "is not a note, mark, exclusion or restore"
+            self.notify(f"Event {seq} {why}.", timeout=3)
+            return
+        from workbench.core.case.payload import describe
+        self.push_screen(ReasonDialog(f"Retract event {seq}", f"{safe(describe(ev))}\nWhy take it back? It stays in "
+                                      "the trail, marked retracted.", "Retract"),
+                         lambda r: self.act(lambda s: s.retract(seq, r)) if r else None)
+
     def note_flow(self, target: str) -> None:
         self.push_screen(ReasonDialog(f"Note on subgroup {safe(target)}", "The note:", "Add note",
                                       needed="A note is required"),

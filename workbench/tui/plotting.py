@@ -35,6 +35,8 @@ LINE = (110, 135, 165)
 LIMIT = (235, 170, 50)
 CENTRE = (95, 200, 130)
 PHASE = (190, 120, 255)
+SELECTED = (120, 170, 255)
+"""The ends of a selected range of subgroups."""
 LOWER_LINE = (70, 185, 190)
 """The lower side of a two-sided chart (the CUSUM's −C⁻), drawn below the centre line."""
 LOWER_GLYPH = "·"
@@ -172,7 +174,8 @@ def _clip(t: Trace, lo: float, hi: float) -> Trace:
 
 
 def build(data: ChartData, win: Window, width: int, height: int, lwidth: int, labels: np.ndarray,
-          phase2: int | None, xticks: bool, token: int, caption: str = "") -> Picture:
+          phase2: int | None, xticks: bool, token: int, caption: str = "",
+          selected: tuple[int, int] | None = None) -> Picture:
     """Draw ``data`` over ``win`` at ``width`` x ``height`` cells (labels padded to ``lwidth``)."""
     asked = (int(width), int(height))
     width, height = max(int(width), lwidth + 12), max(int(height), 4)
@@ -204,6 +207,13 @@ def build(data: ChartData, win: Window, width: int, height: int, lwidth: int, la
             plt.plot(lim[0].tolist(), lim[1].tolist(), marker="braille", color=colour)
     if phase2 is not None and win.start < phase2 < win.stop:
         plt.vline(column_of(phase2, win, cols), color=PHASE)
+    if selected is not None:  # a selected range: its two ends, and a band along the bottom between them
+        a, b = max(selected[0], win.start), min(selected[1], win.stop - 1)
+        if a <= b:
+            ca, cb = column_of(a, win, cols), column_of(b, win, cols)
+            for c in {ca, cb}:
+                plt.vline(c, color=SELECTED)
+            plt.plot(list(range(ca, cb + 1)), [lo + 0.02 * (hi - lo)] * (cb - ca + 1), marker="▁", color=SELECTED)
     spaced = not tr.envelope and (win.size == 1 or (cols - 1) / max(win.size - 1, 1) >= 2)
     for series, colour, normal in ((low, LOWER_LINE, LOWER_GLYPH), (tr, LINE, GLYPH[NORMAL])):
         if series is None:

@@ -283,6 +283,43 @@ class Session:
         self.case.note(text, target, on)
         return Change(self.snapshot(), "Note added", ())
 
+    # -- a range of subgroups, several signals, retractions (one event each)
+
+    def exclude_range(self, first: int, last: int, reason: str, cause: str | None = None) -> Change:
+        from workbench.core.case.ranges import exclude_range
+        before = self.analysis
+        self.analysis = exclude_range(self.case, self.dataset, first, last, reason, cause)
+        return self._limits_change(before, f"Excluded {self.case.events[-1].payload['range']['count']} subgroups")
+
+    def restore_range(self, first: int, last: int, reason: str) -> Change:
+        from workbench.core.case.ranges import restore_range
+        before = self.analysis
+        self.analysis = restore_range(self.case, self.dataset, first, last, reason)
+        return self._limits_change(before, f"Restored {self.case.events[-1].payload['range']['count']} subgroups")
+
+    def note_range(self, first: int, last: int, text: str) -> Change:
+        from workbench.core.case.ranges import note_range
+        note_range(self.case, self.dataset, first, last, text)
+        return Change(self.snapshot(), f"Note added on {last - first + 1} subgroups", ())
+
+    def mark_many(self, keys: list[str], state: str, note: str | None, span: tuple[int, int] | None = None) -> Change:
+        from workbench.core.case.ranges import mark_many
+        before = self.snapshot().marks
+        mark_many(self.case, keys, state, note or None, span=(self.dataset, *span) if span else None)
+        snap = self.snapshot()
+        lines = (f"open signals {before.open_count} → {snap.marks.open_count}",
+                 "the limits do not change (the points stay in)")
+        return Change(snap, f"{len(keys)} signal{'s' if len(keys) != 1 else ''} marked {state}", lines)
+
+    def retract(self, seq: int, reason: str) -> Change:
+        from workbench.core.case.ranges import retract
+        before = self.analysis
+        after = retract(self.case, self.dataset, seq, reason)
+        if after is not None:
+            self.analysis = after
+            return self._limits_change(before, f"Event {seq} retracted")
+        return Change(self.snapshot(), f"Event {seq} retracted", ("the original stays in the trail, marked retracted",))
+
     def set_author(self, author: str) -> Snapshot:
         if not author.strip():
             raise WorkbenchError("the author needs some text")

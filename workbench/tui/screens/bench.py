@@ -12,6 +12,7 @@ from textual.containers import Horizontal, Vertical
 from textual.screen import Screen
 from textual.widgets import Static
 
+from workbench.tui.filters import SignalFilter
 from workbench.tui.plotting import legend_text
 from workbench.tui.session import Snapshot
 from workbench.tui.view import safe
@@ -22,11 +23,12 @@ from workbench.tui.widgets.panels import SubgroupPanel, status_lines
 from workbench.tui.widgets.signal_list import SignalList
 from workbench.tui.window import Window, follow, window_at
 from workbench.tui.screens.bench_charts import MIN_WINDOW, BenchCharts
+from workbench.tui.screens.bench_tools import BenchTools
 
-WRITES = {"exclude", "restore", "note", "explain", "no_cause", "reopen", "freeze", "setup"}
+WRITES = {"exclude", "restore", "note", "explain", "no_cause", "reopen", "freeze", "setup", "retract", "mark_all"}
 
 
-class BenchScreen(BenchCharts, Screen):
+class BenchScreen(BenchTools, BenchCharts, Screen):
     """The main screen of a case."""
 
     BINDINGS = [
@@ -56,7 +58,16 @@ class BenchScreen(BenchCharts, Screen):
         Binding("f", "fit", "Fit", id="fit"),
         Binding("t", "trail", "Trail", id="trail"),
         Binding("v", "panels", "Hide/show panels", id="panels", show=False),
-        Binding("escape", "back", "Back", id="back", show=False),
+        Binding("g", "goto", "Go to a subgroup, position, time, or search notes", id="goto"),
+        Binding("F", "filter", "Filter the signals", id="filter", show=False),
+        Binding("S", "summary", "Signals against chance (summary)", id="summary", show=False),
+        Binding("m", "streams", "Each stream on its own", id="streams", show=False),
+        Binding("space", "range_mark", "Start / drop a range at the cursor", id="range-mark", show=False),
+        Binding("shift+right", "range_step(1)", "Extend the range right", id="range-right", show=False),
+        Binding("shift+left", "range_step(-1)", "Extend the range left", id="range-left", show=False),
+        Binding("u", "retract", "Retract my last action", id="retract", show=False),
+        Binding("M", "mark_all", "Mark every signal at the cursor or in the range", id="mark-all", show=False),
+        Binding("escape", "back", "Back (drops the range, then the filter)", id="back", show=False),
     ]
 
     def __init__(self) -> None:
@@ -68,6 +79,12 @@ class BenchScreen(BenchCharts, Screen):
         self.auto_window = True
         """One subgroup per plot column, refitted on resize, until the user zooms or pans."""
         self._enabled: tuple = ()
+        self.filter = SignalFilter()
+        """What the signals list keeps."""
+        self.drivers: dict[int, str | None] | None = None
+        """Driving stream at each signal's anchor (computed in a worker when a stream filter needs it)."""
+        self.range_start: int | None = None
+        """The other end of the selected range (the cursor is one end), or None."""
 
     def compose(self) -> ComposeResult:
         yield Static("", id="mapping-note", markup=False)
@@ -105,9 +122,8 @@ class BenchScreen(BenchCharts, Screen):
             self.window = None
         spread = self.query_one("#spread", ControlChart)
         spread.display = snap.analysis.spread is not None
-        mk = snap.marks
-        self.query_one(SignalList).set_rows(mk.rows)
-        self.query_one("#signals").border_title = f"signals — {mk.open_count} open of {mk.current}"
+        self.drivers = None
+        self._show_rows()
         self._update_cursor_views()
         self.request_charts()
 
@@ -134,7 +150,7 @@ class BenchScreen(BenchCharts, Screen):
         self.cursor = max(0, min(int(position), m - 1))
         self._row = row
         win = follow(self.window, self.cursor, m) if self.window else None
-        if win != self.window:
+        if win != self.window or self.range_start is not None:
             self.window = win
             self.request_charts()
         self._update_cursor_views(jump)
@@ -188,6 +204,12 @@ class BenchScreen(BenchCharts, Screen):
         if action in WRITES and (snap.readonly or self.app.busy):
             return None
         p, mk, a = self.cursor, snap.marks, snap.analysis
+        if self.range_start is not None and action in ("exclude", "restore", "note", "explain", "no_cause", "reopen"):
+            return True
+        if action == "streams":
+            return True if snap.dataset.values is not None and snap.dataset.k > 1 else None
+        if action == "retract":
+            return True if any(e.kind in ("exclude", "restore", "note", "signal") for e in snap.events) else None
         if action == "exclude":
             return None if a.excluded_subgroups[p] else True
         if action == "restore":
@@ -245,6 +267,16 @@ class BenchScreen(BenchCharts, Screen):
         if snap is None or snap.marks.current == 0:
             return
         lst = self.query_one(SignalList)
+        if lst.indices is not None:  # a filter: step through the rows it keeps
+            if not lst.rows:
+                return
+            pos = (0 if step > 0 else len(lst.rows) - 1) if lst.selected is None else lst.selected + step
+            pos = max(0, min(pos, len(lst.rows) - 1))
+            index = lst.original(pos)
+            if snap.marks.rows[index].anchor >= 0:
+                self.move_to(snap.marks.rows[index].anchor)
+            lst.select(index)
+            return
         if lst.selected is None:
             import numpy as np
             i = int(np.searchsorted(snap.marks.anchors, self.cursor, side="right"))
@@ -282,11 +314,23 @@ class BenchScreen(BenchCharts, Screen):
         from workbench.tui.screens.breakdown import BreakdownScreen
         self.app.push_screen(BreakdownScreen(self.cursor))
 
+    def _on_range(self, what: str) -> bool:
+        span = self.selected_range()
+        if span is None:
+            return False
+        self.app.range_flow(what, *span)
+        return True
+
     def action_exclude(self) -> None:
-        self.app.exclude_flow(self.cursor)
+        if not self._on_range("exclude"):
+            self.app.exclude_flow(self.cursor)
 
     def action_restore(self) -> None:
-        self.app.restore_flow(self.cursor)
+        if not self._on_range("restore"):
+            self.app.restore_flow(self.cursor)
+
+    def action_retract(self) -> None:
+        self.app.retract_flow()
 
     def _signal_row(self) -> int | None:
         """The signal the cursor is on: the selected row when it covers the cursor, else the row there."""
@@ -304,17 +348,28 @@ class BenchScreen(BenchCharts, Screen):
         row = self._signal_row()
         return self.snap.marks.rows[row].key if row is not None else None
 
+    def _mark(self, state: str) -> None:
+        if self._on_range(state):
+            return
+        snap = self.snap
+        row = snap.marks.row_at(self.cursor) if snap else None
+        if row is None:
+            self.app.mark_flow(None, state)
+            return
+        self.app.mark_flow(snap.marks.rows[row].key, state)
+
     def action_explain(self) -> None:
-        self.app.mark_flow(self._signal_key(), "explained")
+        self._mark("explained")
 
     def action_no_cause(self) -> None:
-        self.app.mark_flow(self._signal_key(), "no-cause-found")
+        self._mark("no-cause-found")
 
     def action_reopen(self) -> None:
-        self.app.mark_flow(self._signal_key(), "open")
+        self._mark("open")
 
     def action_note(self) -> None:
-        self.app.note_flow(str(self.snap.dataset.labels[self.cursor]))
+        if not self._on_range("note"):
+            self.app.note_flow(str(self.snap.dataset.labels[self.cursor]))
 
     def action_freeze(self) -> None:
         self.app.freeze_flow()
@@ -338,6 +393,13 @@ class BenchScreen(BenchCharts, Screen):
         self.call_after_refresh(self.request_charts)
 
     def action_back(self) -> None:
+        if self.range_start is not None:
+            self.range_start = None
+            self._range_changed()
+            return
+        if self.filter.active:
+            self.set_filter()
+            return
         note = self.query_one("#mapping-note", Static)
         if note.display:  # escape first dismisses the line naming the columns
             self.mapping_seen = True

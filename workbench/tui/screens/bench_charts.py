@@ -16,15 +16,20 @@ from workbench.tui.window import Window, follow, window_at
 
 MIN_WINDOW = 8
 """The fewest subgroups a window shows."""
+FIT_PER_COLUMN = 4
+"""The first view shows the whole series when it needs no more than this many subgroups a plot column."""
 
 
 class BenchCharts:
     """Requests and shows the location and spread pictures (``self.snap``, ``self.window`` live on the screen)."""
 
     def _default_size(self) -> int:
-        """One subgroup per plot column (the y labels take about 13 columns)."""
+        """The whole series when it fits the plot (at most FIT_PER_COLUMN subgroups a column, every flagged
+        point still drawn), else one subgroup per plot column (the y labels take about 13 columns)."""
         width = self.query_one("#location").size.width or self.app.size.width
-        return max(MIN_WINDOW, width - 13)
+        cols = max(MIN_WINDOW, width - 13)
+        m = self.snap.dataset.m if self.snap is not None else 0
+        return m if 0 < m <= FIT_PER_COLUMN * cols else cols
 
     def request_charts(self) -> None:
         snap = self.snap
@@ -36,15 +41,22 @@ class BenchCharts:
             return
         if self.window is None or self.auto_window:
             size = self._default_size()
+            if self.window is None and size < snap.dataset.m and not getattr(self, "_newest_said", False):
+                # too long to show whole: start on the newest part, and say so
+                self._newest_said = True
+                self.cursor = snap.dataset.m - 1
+                self.notify(f"Showing the newest {size:,} of {snap.dataset.m:,} subgroups; 0 shows the whole "
+                            "series, Home goes to the first.", timeout=3.5)
             if self.window is None or self.window.size != min(size, snap.dataset.m):
                 start = self.window.start if self.window is not None else self.cursor
                 self.window = follow(window_at(start, size, snap.dataset.m), self.cursor, snap.dataset.m)
         win = self.window
         self.token += 1
-        self._build(self.token, snap, win, sizes)
+        self._build(self.token, snap, win, sizes, self.selected_range())
 
     @work(thread=True, exclusive=True, group="charts")
-    def _build(self, token: int, snap: Snapshot, win: Window, sizes: list[tuple[int, int]]) -> None:
+    def _build(self, token: int, snap: Snapshot, win: Window, sizes: list[tuple[int, int]],
+               selected: tuple[int, int] | None = None) -> None:
         a = snap.analysis
         charts = [chart_data(c, snap.marks.codes[c.name]) for c in a.charts[:2]]
         cols = max(sizes[0][0] - 14, 10)
@@ -63,7 +75,7 @@ class BenchCharts:
                     return
                 last = i == len(charts) - 1
                 pics.append(build(data, win, w, h, lw, snap.dataset.labels, a.phase2_start, xticks=last,
-                                  token=token, caption=caption if i == 0 else ""))
+                                  token=token, caption=caption if i == 0 else "", selected=selected))
         except Exception as exc:  # a chart that cannot be drawn says so in its place; the bench goes on
             self.post_message(ChartsReady(token, (), f"cannot draw this window: {type(exc).__name__}: {exc}"))
             return

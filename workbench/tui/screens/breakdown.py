@@ -22,7 +22,7 @@ from workbench.tui.widgets.comparison import comparison_text
 from workbench.tui.widgets.neighbourhood import NEIGHBOURS, neighbourhood_text
 from workbench.tui.widgets.keybar import KeyBar
 
-WRITES = {"exclude", "exclude_reading", "restore"}
+WRITES = {"exclude", "exclude_reading", "restore", "note", "mark"}
 COLUMNS = ("stream", "reading", "− mean", "stream mean", "stream SD", "z (own)", "role", "share of R", "excluded")
 
 
@@ -53,6 +53,10 @@ class BreakdownScreen(Screen):
         Binding("r", "restore", "Restore", id="breakdown-restore"),
         Binding("n", "signal(1)", "Next signal", id="breakdown-next-signal"),
         Binding("N", "signal(-1)", "Prev signal", id="breakdown-prev-signal", show=False),
+        Binding("a", "note", "Note", id="breakdown-note"),
+        Binding("e", "mark('explained')", "Explained", id="breakdown-explain"),
+        Binding("c", "mark('no-cause-found')", "No cause", id="breakdown-no-cause"),
+        Binding("o", "mark('open')", "Reopen", id="breakdown-reopen", show=False),
         Binding("right,l", "move(1)", "Next subgroup", id="breakdown-next", show=False),
         Binding("left,h", "move(-1)", "Previous subgroup", id="breakdown-prev", show=False),
     ]
@@ -267,6 +271,15 @@ class BreakdownScreen(Screen):
 
     def action_exclude_reading(self) -> None:
         self.app.exclude_flow(self.position, stream=self._stream())
+
+    def action_note(self) -> None:
+        self.app.note_flow(str(self.snap.dataset.labels[self.position]))
+
+    def action_mark(self, state: str) -> None:
+        """Answer the signal of this subgroup where you stand."""
+        snap, p = self.snap, self.position
+        row = snap.marks.row_at(p)
+        self.app.mark_flow(snap.marks.rows[row].key if row is not None else None, state)
 
     def action_restore(self) -> None:
         self.app.restore_flow(self.position, stream=self._stream())

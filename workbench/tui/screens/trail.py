@@ -38,6 +38,7 @@ class TrailScreen(Screen):
     BINDINGS = [
         Binding("escape", "back", "Back", id="trail-back"),
         Binding("v", "verify", "Check integrity", id="trail-verify"),
+        Binding("R", "retract", "Retract this event", id="trail-retract"),
     ]
 
     def __init__(self) -> None:
@@ -65,12 +66,15 @@ class TrailScreen(Screen):
         table.clear()
         hide = self.app.hide_times
         self.changes = setup_changes(snap.events)
+        retracted = getattr(snap.state, "retracted", {})
         for ev in snap.events:
             words = describe(ev)
+            if ev.seq in retracted:
+                words = Text(f"[retracted by event {retracted[ev.seq]}] {words}", style="strike dim")
             if ev.seq in self.changes:
                 words += ": " + "; ".join(self.changes[ev.seq])
             table.add_row(str(ev.seq), "—" if hide else ev.time, Text(safe(ev.author)), ev.kind,
-                          Text(words), key=str(ev.seq))
+                          words if isinstance(words, Text) else Text(words), key=str(ev.seq))
         if snap.events:
             table.move_cursor(row=len(snap.events) - 1)
         self.action_verify()
@@ -127,6 +131,19 @@ class TrailScreen(Screen):
             for r in v.remarks:
                 t.append(f"\n  note: {safe(r)}", style="dim")
         self.query_one("#trail-integrity", Static).update(t)
+
+    def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
+        if action == "retract":
+            snap = self.snap
+            if snap is None or snap.readonly or self.app.busy:
+                return None
+        return True
+
+    def action_retract(self) -> None:
+        """Retract the highlighted note, mark, exclusion or restore (a new event; the original stays)."""
+        row = self.query_one(DataTable).cursor_row
+        if self.snap is not None and 0 <= row < len(self.snap.events):
+            self.app.retract_flow(self.snap.events[row].seq)
 
     def action_back(self) -> None:
         self.app.pop_screen()

@@ -3,6 +3,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import numpy as np
+
 from rich.segment import Segment
 from rich.style import Style
 from textual import events
@@ -33,19 +35,39 @@ class SignalList(ScrollView, can_focus=False):
     def __init__(self, *, id: str | None = None) -> None:
         super().__init__(id=id)
         self.rows: tuple[SignalRow, ...] = ()
+        """The rows shown (all signals, or those a filter keeps)."""
+        self.indices: np.ndarray | None = None
+        """Index of each shown row among all signals (None: every signal is shown, in order)."""
+        self._where: dict[int, int] = {}
         self.selected: int | None = None
+        """Shown position of the highlighted row."""
         self._base = Style()
         self._cache: dict[tuple[int, int, bool], Strip] = {}
 
-    def set_rows(self, rows: tuple[SignalRow, ...]) -> None:
-        self.rows = rows
-        if self.selected is not None and self.selected >= len(rows):
-            self.selected = None
-        self.virtual_size = Size(self.size.width, LINES * len(rows))
+    def set_rows(self, rows: tuple[SignalRow, ...], indices: np.ndarray | None = None) -> None:
+        """Show ``rows`` (all signals), or only ``rows[indices]`` (a filter); Picked names the index among all."""
+        self.indices = None if indices is None else np.asarray(indices, dtype=np.int64)
+        self.rows = rows if indices is None else tuple(rows[i] for i in self.indices.tolist())
+        self._where = {} if indices is None else {int(a): i for i, a in enumerate(self.indices.tolist())}
+        self.selected = None
+        self._cache.clear()
+        self.virtual_size = Size(self.size.width, LINES * len(self.rows))
+        self.scroll_to(0, 0, animate=False)
         self.refresh()
 
+    def shown(self, index: int | None) -> int | None:
+        """Shown position of signal ``index`` (None when the filter hides it)."""
+        if index is None or self.indices is None:
+            return index
+        return self._where.get(int(index))
+
+    def original(self, position: int) -> int:
+        """Index among all signals of the row shown at ``position``."""
+        return position if self.indices is None else int(self.indices[position])
+
     def select(self, index: int | None, scroll: bool = True) -> None:
-        """Highlight row ``index``; ``scroll`` brings it into view (plain cursor steps do not scroll)."""
+        """Highlight signal ``index`` (among all); ``scroll`` brings it into view (plain cursor steps do not)."""
+        index = self.shown(index)
         if index == self.selected:
             if scroll and index is not None:
                 self._bring_into_view(index)
@@ -115,4 +137,4 @@ class SignalList(ScrollView, can_focus=False):
         index = (event.y + self.scroll_offset.y) // LINES
         if 0 <= index < len(self.rows):
             event.stop()
-            self.post_message(self.Picked(index))
+            self.post_message(self.Picked(self.original(index)))
