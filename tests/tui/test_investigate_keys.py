@@ -203,3 +203,46 @@ async def test_stream_view_fits_80x24_and_shows_one_stream_full_size(in_tmp, ope
         big = charts[1]
         assert big.picture is not None and big.size.width > 60
         assert "H2" in screen_text(app)
+
+
+async def test_mark_every_signal_the_filter_shows_in_one_event(in_tmp, opened):
+    async with opened() as pilot:
+        app = pilot.app
+        bench = app.screen
+        bench.set_filter(chart="r")
+        await settle(pilot)
+        keys = [r.key for r in bench.query_one(SignalList).rows]
+        assert len(keys) >= 2
+        await pilot.press("M")
+        await settle(pilot)
+        assert isinstance(app.screen, ChoiceDialog)
+        app.screen.dismiss("no-cause-found")
+        await settle(pilot)
+        await _type(pilot, "gauge checked")
+        await pilot.press("enter")
+        await settle(pilot)
+        snap = app.snapshot
+        assert snap.events[-1].payload["keys"] == keys
+        assert all(snap.state.signal_state(k) == "no-cause-found" for k in keys)
+        assert sum(1 for e in snap.events if e.kind == "signal") == 1
+
+
+async def test_notices_stay_off_the_status_bar_and_go_at_the_next_key(in_tmp, opened):
+    app = demo_app()
+    async with opened(app, notifications=True) as pilot:
+        await pilot.press("x")
+        await settle(pilot)
+        await _type(pilot, "probe")
+        await pilot.press("enter")
+        await settle(pilot)
+        assert len(app._notifications) >= 1
+        rack = app.screen.query_one("ToastRack")
+        status = app.screen.query_one("#status")
+        location = app.screen.query_one("#location")
+        for toast in rack.query("Toast"):
+            r = toast.region
+            assert r.bottom <= status.region.y  # never over the status bar
+            assert r.x >= location.region.x + 12  # never over the chart's y axis and its labels
+        await pilot.press("right")
+        await settle(pilot)
+        assert len(app._notifications) == 0

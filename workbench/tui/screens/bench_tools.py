@@ -135,10 +135,15 @@ class BenchTools:
         """Mark every signal at the cursor (or in the range) at once: one event."""
         snap = self.snap
         span = self.selected_range() or (self.cursor, self.cursor)
-        here = [r.key for r in snap.marks.rows[:snap.marks.current]
-                if r.state != "excluded" and (r.first <= span[1] and r.last >= span[0])]
-        where = (f"at subgroup {safe(snap.dataset.labels[span[0]])}" if span[0] == span[1] else
-                 f"in subgroups {safe(snap.dataset.labels[span[0]])}..{safe(snap.dataset.labels[span[1]])}")
+        current = snap.marks.rows[:snap.marks.current]
+        if self.range_start is None and self.filter.active:  # every signal the filtered list shows
+            shown = self.query_one(SignalList).rows
+            here = [r.key for r in shown if r.state != "excluded" and r.first >= 0]
+            where, span = f"in the list ({self.filter.words()})", (self.cursor, self.cursor)
+        else:
+            here = [r.key for r in current if r.state != "excluded" and (r.first <= span[1] and r.last >= span[0])]
+            where = (f"at subgroup {safe(snap.dataset.labels[span[0]])}" if span[0] == span[1] else
+                     f"in subgroups {safe(snap.dataset.labels[span[0]])}..{safe(snap.dataset.labels[span[1]])}")
         if not here:
             self.notify(f"No signal {where}.", timeout=3)
             return
