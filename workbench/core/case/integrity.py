@@ -8,7 +8,7 @@ from pathlib import Path
 from typing import Any, Iterable
 
 from workbench.core.case.anchors import bak_finding, check_anchor, edited_text, repair_remarks
-from workbench.core.case.events import CaseState, Event, apply, replay
+from workbench.core.case.events import CaseState, Event, _Builder
 from workbench.core.case.format import (
     DataStatus, Document, build, canonical_json, chain_break, check_data, jsonable, read_bytes, read_json, render,
 )
@@ -129,15 +129,19 @@ def _recompute_limits(doc: Document, status: DataStatus) -> list[str]:
         return snaps[key]
 
     problems: list[str] = []
-    state: CaseState | None = None
+    builder = _Builder()  # one replay, followed event by event; a state is made only where limits are recorded
     for ev in doc.events:
-        before, state = state, (replay((ev,)) if state is None else apply(state, ev))
         nbytes = doc.data.size_bytes if ev.data_bytes is None else ev.data_bytes
-        for when, recorded, st in (("before", ev.limits_before, before), ("after", ev.limits_after, state)):
-            if recorded is None or st is None:
+        before = builder.state() if ev.limits_before is not None and builder.seq and \
+            (nbytes, builder.seq) not in snaps else None
+        builder.apply(ev)
+        after = builder.state() if ev.limits_after is not None else None
+        for when, recorded, st, seq in (("before", ev.limits_before, before, ev.seq - 1),
+                                        ("after", ev.limits_after, after, ev.seq)):
+            if recorded is None or (st is None and (nbytes, seq) not in snaps):
                 continue
             try:
-                diff = snapshot_difference(recorded, snapshot(nbytes, st))
+                diff = snapshot_difference(recorded, snaps[(nbytes, seq)] if st is None else snapshot(nbytes, st))
             except WorkbenchError as exc:
                 problems.append(f"event {ev.seq}: its limits could not be recomputed: {exc}")
                 return problems
