@@ -160,7 +160,9 @@ class ControlChart(PlotextPlot):
                 simple = simple and seg.cell_length == len(seg.text)
             runs = self._runs[y] = (segs, starts, simple)
         segs, starts, simple = runs
-        if not simple or x >= strip.cell_length:  # wide characters: the general (slower) way
+        if x >= strip.cell_length:  # a picture drawn for a narrower widget (a resize in flight): no cursor cell
+            return strip
+        if not simple:  # wide characters: the general (slower) way
             left, mid, right = strip.divide((x, x + 1, strip.cell_length))[:3]
             return Strip.join((left, mid.apply_style(CURSOR), right))
         i = bisect_right(starts, x) - 1
