@@ -28,7 +28,9 @@ from workbench.core.capability import words
 from workbench.core.capability.formulas import (BOUND_KINDS, Fallout, Indices, bissell_interval, boyles_cpm_interval,
                                   centring_k, cp_chi2_interval, cpm_index, fallout, normal_fallout,
                                   normal_indices, observed_fallout, percentile_indices)
-from workbench.core.capability.method import BoxCoxInfo, resolve_method
+from workbench.core.capability.departure import Departure, departure
+from workbench.core.capability.method import BoxCoxInfo, poor_fit, resolve_method
+from workbench.core.capability.resolution import Resolution, resolution
 from workbench.core.model import SIGMA_METHOD_LABELS, Spec, WorkbenchError
 from workbench.core.capability.nonnormal import FitInfo, boxcox_pdf, frozen, model_percentiles
 from workbench.core.capability.normality import Normality, normality
@@ -138,6 +140,11 @@ class Capability:
     """Problems with this result (stability, sample size, spread, fit)."""
     cautions: tuple[str, ...]
     """Standing remarks on how to read the figures."""
+    resolution: Resolution | None = None
+    """The readings' grid (δ, distinct values, δ/σ, coarse or not); None without spread."""
+    departure: Departure | None = None
+    """How far the best non-normal model's 0.135 % / 99.865 % points lie from the normal model's, as a
+    share of the tolerance (None when no other model was fitted)."""
 
 
 def _num(spec: Spec, name: str) -> float | None:
@@ -192,12 +199,6 @@ def _ci(fn, value: float | None, *args) -> Interval | None:
     return None if value is None else fn(value, *args)
 
 
-POOR_FIT_AD = 2.5
-"""Anderson–Darling A² of the chosen non-normal model above which no verdict is given.  The 1%
-critical values of A² for the normal, Weibull and gamma families with estimated parameters lie near
-1.0 (Stephens, in D'Agostino & Stephens 1986, ch. 4 [from memory]); 2.5 is a clear misfit for any."""
-
-
 def assess(readings: np.ndarray, sigma_within: float | None, sigma_method: str, spec: Spec,
            open_signals: int = 0) -> Capability:
     """Capability of the readings against ``spec`` (see the module docstring for the methods).
@@ -250,8 +251,14 @@ def assess(readings: np.ndarray, sigma_within: float | None, sigma_method: str, 
             warn.append(w)
     if raw.size > n:
         warn.append(f"{raw.size - n} non-finite readings were ignored.")
-    norm_res = normality(x) if n >= 3 and s > 0 else None
-    method, reason, fit, bc = resolve_method(x, s, spec, lsl, usl, target, norm_res, warn)
+    res = resolution(x, s, lsl, usl) if s > 0 else None
+    step = res.step if res is not None and res.rounded else None
+    norm_res = normality(x, step=step) if n >= 3 and s > 0 else None
+    method, reason, fit, bc = resolve_method(x, s, spec, lsl, usl, target, norm_res, warn, step)
+    dep = departure(fit, lsl, usl) if fit is not None else None
+    w = words.resolution_warning(res, s, norm_res.interval_sd if norm_res is not None else None)
+    if w:
+        warn.append(w)
     label = SIGMA_METHOD_LABELS.get(sigma_method, sigma_method)
     if method == "normal" and s > 0:
         if sw is None:
@@ -304,9 +311,9 @@ def assess(readings: np.ndarray, sigma_within: float | None, sigma_method: str, 
         head, hv, hci = ("Ppk", p.worst, ppk_ci) if p.worst is not None else (None, None, None)
     why = "the readings show no spread, so the indices are undefined"
     chosen = next((c for c in fit.candidates if c.name == fit.distribution), None) if fit is not None else None
-    if method != "normal" and chosen is not None and chosen.ad_statistic > POOR_FIT_AD:
-        warn.append(f"Even the best-fitting model ({chosen.name}) describes the readings poorly (Anderson\u2013Darling "
-                    f"A\u00b2 = {chosen.ad_statistic:.3g}; above about {POOR_FIT_AD:g} no common family fits): look "
+    poor = poor_fit(chosen, fit, x, lsl, usl) if method != "normal" and chosen is not None else None
+    if poor:
+        warn.append(f"Even the best-fitting model ({chosen.name}) describes the readings poorly ({poor}): look "
                     "for outliers, mixed streams or open signals before trusting any index.")
         head, hv, hci = None, None, None
         why = "no fitted model describes the readings well enough to judge the tails"
@@ -326,7 +333,8 @@ def assess(readings: np.ndarray, sigma_within: float | None, sigma_method: str, 
         normality=norm_res, fit=fit, boxcox_lambda=bc.lam if bc else None, boxcox=bc,
         percentiles=percentiles, required=req, headline=head, headline_value=hv, meets_required=meets,
         bound_meets_required=bound_meets, verdict=text, common_practice=words.common_practice(head, hv),
-        open_signals=int(open_signals), warnings=tuple(warn), cautions=tuple(cautions))
+        open_signals=int(open_signals), warnings=tuple(warn), cautions=tuple(cautions), resolution=res,
+        departure=dep)
 
 
 def density_curve(cap: Capability, x: np.ndarray) -> np.ndarray:

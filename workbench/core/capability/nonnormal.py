@@ -25,6 +25,20 @@ TAIL = float(stats.norm.cdf(-3.0))
 
 
 @dataclass(frozen=True)
+class BinnedFit:
+    """Pearson's chi-square test of a fitted model on the counts per resolution cell (rounded readings)."""
+
+    statistic: float
+    """Σ (observed − expected)² / expected over the pooled cells."""
+    df: int
+    """Pooled cells − 1 − fitted parameters."""
+    p: float | None
+    """Upper-tail chi-square probability (None when df < 1: too few cells to test)."""
+    cells: int
+    """Number of pooled cells."""
+
+
+@dataclass(frozen=True)
 class Candidate:
     """One model fitted to the readings."""
 
@@ -39,6 +53,8 @@ class Candidate:
     """Akaike information criterion, 2k - 2 log L (lower is better)."""
     ad_statistic: float
     """Anderson–Darling A² of the readings against the fitted model (shown, not used to choose)."""
+    binned: BinnedFit | None = None
+    """For rounded readings: the test of fit on the counts per resolution cell (None otherwise)."""
 
 
 @dataclass(frozen=True)
@@ -63,6 +79,9 @@ class FitInfo:
     """Plain-words reasons why some models were not fitted."""
     shift: float
     """Shift added to the readings before fitting positive-support models."""
+    step: float | None = None
+    """The reading grid δ when the models were fitted to rounded readings as intervals
+    [x − δ/2, x + δ/2] (interval-censored maximum likelihood; AIC then compares those fits)."""
 
 
 def boxcox_llf(lam: float, x: np.ndarray) -> float:
@@ -124,17 +143,30 @@ def frozen(name: str, params: tuple[tuple[str, float], ...]):
     raise ValueError(f"no frozen distribution for {name!r}")
 
 
+def _log_tail(values: np.ndarray, tail, log_tail) -> np.ndarray:
+    """log of a distribution's cdf (or sf): the plain value where it is not tiny, the log form elsewhere."""
+    p = tail(values)
+    out = np.log(np.maximum(p, 1e-300))
+    tiny = p < 1e-200
+    if tiny.any():
+        out[tiny] = log_tail(values[tiny])
+    return out
+
+
 def _ad_fitted(x_sorted: np.ndarray, dist) -> float:
     n = x_sorted.size
     i = np.arange(1, n + 1)
-    return float(-n - np.sum((2 * i - 1) * (dist.logcdf(x_sorted) + dist.logsf(x_sorted[::-1]))) / n)
+    with np.errstate(divide="ignore"):
+        lc = _log_tail(x_sorted, dist.cdf, dist.logcdf)
+        ls = _log_tail(x_sorted[::-1], dist.sf, dist.logsf)
+    return float(-n - np.sum((2 * i - 1) * (lc + ls)) / n)
 
 
 def _candidate(name: str, params: dict[str, float], x: np.ndarray) -> Candidate:
     dist = frozen(name, tuple(params.items()))
     loglik = float(np.sum(dist.logpdf(x)))
     k = len(params)
-    return Candidate(name, tuple(params.items()), loglik, 2 * k - 2 * loglik, _ad_fitted(np.sort(x), dist))
+    return Candidate(name, tuple(params.items()), loglik, 2 * k - 2 * loglik, _ad_fitted(x, dist))  # x sorted by fit_models
 
 
 def weibull_mle(u: np.ndarray) -> tuple[float, float]:
@@ -171,7 +203,7 @@ BOXCOX_MAX_LAMBDA = 5.0
 
 
 def fit_boxcox(u: np.ndarray) -> Candidate:
-    """Box-Cox model of positive readings ``u``: lambda by ML, then a normal on the transformed scale."""
+    """Box-Cox model of positive readings ``u`` (in increasing order): lambda by ML, then a normal on the transformed scale."""
     lam = boxcox_lambda(u)
     if abs(lam) > BOXCOX_MAX_LAMBDA:
         raise ValueError(f"\u03bb = {lam:.3g} lies outside \u00b1{BOXCOX_MAX_LAMBDA:g}, where the transform is "
@@ -182,7 +214,7 @@ def fit_boxcox(u: np.ndarray) -> Candidate:
     if not (math.isfinite(mean_t) and math.isfinite(sd_t) and sd_t > 0):
         raise ValueError(f"the transform with \u03bb = {lam:.4g} overflows")
     loglik = boxcox_llf(lam, u) - 0.5 * u.size * (math.log(2 * math.pi) + 1.0)
-    ad = _ad_fitted(np.sort(y), stats.norm(mean_t, sd_t))
+    ad = _ad_fitted(y, stats.norm(mean_t, sd_t))  # u sorted, the transform increasing
     params = (("lambda", lam), ("mean", mean_t), ("sd", sd_t))
     return Candidate("box-cox", params, loglik, 6.0 - 2.0 * loglik, ad)
 
@@ -212,7 +244,8 @@ def fit_models(x: np.ndarray, shift: float | None, names: tuple[str, ...]) -> Fi
     """
     if x.size < MIN_FIT_READINGS:
         raise WorkbenchError(f"fitting a distribution needs at least {MIN_FIT_READINGS} readings, got {x.size}")
-    positive = x.min() + (shift or 0.0) > 0
+    x = np.sort(x)                        # once: every A² below needs the readings in order
+    positive = x[0] + (shift or 0.0) > 0
     u = x + (shift or 0.0)
     fitted, skipped = [], []
     for name in names:
@@ -261,4 +294,12 @@ def choose(fit: FitInfo, name: str) -> FitInfo:
     others = [c for c in fit.candidates if c.name != name]
     second = others[0] if others else None
     return FitInfo(name, chosen.params, fit.criterion, chosen.aic, second.name if second else None,
-                   second.aic if second else None, (chosen, *others), fit.skipped, fit.shift)
+                   second.aic if second else None, (chosen, *others), fit.skipped, fit.shift, fit.step)
+
+
+def ad_of(name: str, params: tuple[tuple[str, float], ...], x: np.ndarray, shift: float) -> float:
+    """Anderson–Darling A² of the readings ``x`` against a fitted candidate (Box-Cox: on its scale)."""
+    if name == "box-cox":
+        p = dict(params)
+        return _ad_fitted(np.sort(boxcox(x + shift, p["lambda"])), stats.norm(p["mean"], p["sd"]))
+    return _ad_fitted(np.sort(x + (0.0 if name == "normal" else shift)), frozen(name, params))

@@ -7,6 +7,9 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import stats
 
+from workbench.core.capability.censored import binned_fit, cells_of, fit_censored
+from workbench.core.capability.nonnormal import BinnedFit
+
 ALPHA = 0.05
 """Significance level of the normality verdict (and of the ``auto`` method choice)."""
 SHAPIRO_MAX_N = 5000
@@ -42,6 +45,16 @@ class Normality:
     """Significance level used for ``passed``."""
     verdict: str
     """The result in plain words."""
+    test: str = "anderson-darling"
+    """The test ``passed`` rests on: "anderson-darling" on the readings, or "binned chi-square" on
+    the counts per resolution cell when the readings are rounded."""
+    binned: BinnedFit | None = None
+    """Rounded readings: Pearson's chi-square of the interval-censored normal fit over the cells."""
+    interval_mean: float | None = None
+    """Rounded readings: the mean of the interval-censored normal fit."""
+    interval_sd: float | None = None
+    """Rounded readings: the standard deviation of the interval-censored normal fit (free of the
+    rounding's δ²/12)."""
 
 
 def ad_statistic(x, axis: int = -1):
@@ -97,10 +110,13 @@ def _fmt_p(p: float, relation: str = "", alpha: float = ALPHA) -> str:
     return text + (f" {relation} {alpha:g}" if relation else "")
 
 
-def normality(x: np.ndarray, alpha: float = ALPHA) -> Normality:
+def normality(x: np.ndarray, alpha: float = ALPHA, step: float | None = None) -> Normality:
     """Anderson–Darling test (with p-value) and Shapiro–Wilk or a probability-plot correlation.
 
-    ``x`` must hold at least 3 finite readings that are not all equal (the caller checks).
+    ``x`` must hold at least 3 finite readings that are not all equal (the caller checks).  With
+    ``step`` (rounded readings on that grid) the verdict rests instead on Pearson's chi-square of
+    the interval-censored normal fit over the resolution cells: rounding alone makes the
+    Anderson–Darling and Shapiro–Wilk tests reject (ties), whatever the process.
 
     References
     ----------
@@ -130,11 +146,33 @@ def normality(x: np.ndarray, alpha: float = ALPHA) -> Normality:
     else:
         words.append(f"Probability-plot correlation r = {r:.4f} (Shapiro–Wilk is not used above "
                      f"{SHAPIRO_MAX_N} readings).")
+    binned = im = isd = None
+    if step:
+        cells = cells_of(x, step)
+        params, _ = fit_censored("normal", {"mean": float(x.mean()), "sd": float(x.std())}, cells)
+        binned = binned_fit("normal", params, cells)
+        im, isd = float(params["mean"]), float(params["sd"])
+        step_text = f"{step:g}"
+        cells_words = f"{binned.cells} pooled cells of the {step_text} grid"
+        if binned.p is None:                 # too few readings for a test on the cells: the test on the readings
+            step = None
+            words.append(f"(Too few readings for a test over the {step_text} grid's cells: {binned.cells} pooled.)")
+        else:
+            passed = bool(binned.p >= alpha)
+            words = [(f"Consistent with a normal distribution on the resolution cells: " if passed else
+                      f"Not consistent with a normal distribution on the resolution cells: ")
+                     + f"Pearson's chi-square of the interval-censored normal fit over {cells_words} "
+                     + f"{'does not reject' if passed else 'rejects'} it (\u03c7\u00b2 = {binned.statistic:.2f}, "
+                     + f"df {binned.df}, {_fmt_p(binned.p, '≥' if passed else '<', alpha)}).",
+                     f"Tests on the rounded readings themselves are not used, as ties alone make them reject "
+                     f"(Anderson–Darling A² = {a2:.3f}, {_fmt_p(p)}"
+                     + (f"; Shapiro–Wilk {_fmt_p(sw_p)}" if sw_p is not None else "") + ")."]
     if passed and n < 20:
         words.append(f"With only {n} readings the tests have little power to detect non-normality.")
     if not passed and n > 1000:
         words.append(f"With {n} readings the test detects departures too small to matter in "
-                     "practice; judge the fitted models and the histogram too.")
+                     "practice; judge the size of the departure and the quantile plot too.")
     return Normality(n=n, ad_statistic=a2, ad_adjusted=float(a2s), ad_p=p, ad_p_method=AD_P_METHOD,
                      sw_statistic=sw_w, sw_p=sw_p, ppcc=float(r) if math.isfinite(r) else 0.0,
-                     passed=passed, alpha=alpha, verdict=" ".join(words))
+                     passed=passed, alpha=alpha, verdict=" ".join(words), test="binned chi-square" if step else
+                     "anderson-darling", binned=binned, interval_mean=im, interval_sd=isd)

@@ -145,3 +145,30 @@ def within_caution(method: str) -> str:
     return (f"The {method} method reports only the overall indices (Pp, Ppl, Ppu, Ppk) and overall ppm: "
             "\u03c3 within comes from the chart's estimator on the original scale under a normal model "
             "and has no counterpart on the fitted model's scale.")
+
+
+def resolution_warning(res, sigma_overall: float, sigma_interval: float | None) -> str | None:
+    """The coarse-resolution warning and what coarse readings do to the indices (None when fine).
+
+    Common practice: about ten or more resolution steps across the process spread (6σ) and a
+    resolution of at most 1/10 of the tolerance.  Sheppard (1898): rounding to a step δ adds
+    about δ²/12 to the variance of the readings.
+    """
+    if res is None or not res.coarse or res.step is None:
+        return None
+    d = f"{res.step:g}"
+    why = []
+    if res.steps_in_spread is not None and res.steps_in_spread < 10:
+        why.append(f"only about {res.steps_in_spread:.0f} steps of {d} across the process spread (6\u03c3), "
+                   "where common practice wants about 10 or more")
+    if res.tolerance_share is not None and res.tolerance_share > 0.1:
+        why.append(f"the step is 1/{1 / res.tolerance_share:.2g} of the tolerance, where common practice "
+                   "wants 1/10 or finer")
+    text = f"Coarse resolution: the readings step by {d} ({res.distinct} distinct values); " + " and ".join(why) + "."
+    text += " Rounding adds about \u03b4\u00b2/12 to the variance of the readings"
+    if sigma_interval and sigma_interval > 0 and sigma_overall > 0:
+        low = 100.0 * (1.0 - sigma_interval / sigma_overall)
+        text += (f" (\u03c3 overall {sigma_overall:.4g} from the readings against {sigma_interval:.4g} from the "
+                 f"interval fit), so the P indices read about {low:.0f} % low")
+    return text + ("; \u03c3 within from the ranges of coarse readings is unreliable (many ranges of 0 or one step), "
+                   "and the expected ppm rests on the few cells in the tails. A finer gauge gives firmer figures.")
