@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import numpy as np
+import pytest
 
 from workbench.tui.screens.fit import FitScreen
 
@@ -74,4 +75,23 @@ async def test_the_stability_gate_counts_only_open_signals(in_tmp, opened):
         # the gate counts signals not yet explained (issue 7): one explained, one fewer counted
         assert cap.open_signals == total - 1 == len(open_signals(snap.analysis, snap.state.signal_states))
         assert cap == capability_for(snap.analysis, snap.state.signal_states)
+        await pilot.press("escape", "q")
+
+
+@pytest.mark.parametrize("size", [(120, 36), (80, 24)])
+async def test_fit_view_composition_at_both_sizes(in_tmp, opened, size):
+    """The strip, the quantile plot and the statements led by the verdict, on one screen at 80×24 too."""
+    from workbench.core.capability.picture import POINT
+    app = demo_app()
+    async with opened(app, size=size) as pilot:
+        await pilot.press("f")
+        await settle(pilot)
+        text = screen_text(app)
+        assert "LSL 497" in text and "\u251c" in text and "\u2524" in text       # the strip: the limits drawn once
+        assert "99.865%" in text and POINT in text                               # the quantile plot
+        side = str(app.screen.query_one("#fit-text").render())
+        assert side.startswith("Verdict:")                                       # statements led by the verdict
+        assert "Below the LSL" in side and "Above the USL" in side
+        assert "local regulations" in text                                       # the standing caution
+        assert "histogram" not in text.lower()
         await pilot.press("escape", "q")

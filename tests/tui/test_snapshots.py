@@ -31,3 +31,11 @@ def test_breakdown_of_the_drift(snap_compare, in_tmp):
 def test_trail_after_an_exclusion(snap_compare, in_tmp):
     assert snap_compare(demo_app(), terminal_size=(120, 36),
                         run_before=_after("n", "x", "t", reason="nozzle H4 changed"))
+
+
+def test_fit_view_at_120_by_36(snap_compare, in_tmp):
+    assert snap_compare(demo_app(), terminal_size=(120, 36), run_before=_after("f"))
+
+
+def test_fit_view_at_80_by_24(snap_compare, in_tmp):
+    assert snap_compare(demo_app(), terminal_size=(80, 24), run_before=_after("f"))

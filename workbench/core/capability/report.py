@@ -1,5 +1,9 @@
 """Report sections of a capability result: JSON, terminal text and Markdown.
 
+The text and Markdown sections share one composition: the verdict, the specification strip
+(LSL … USL once, the within and overall natural spread as two bands, mean and target marked), the
+figures as statements (``statements.py``), the normal quantile plot with the model's line.
+
 Views only: every figure comes from the ``Capability`` result.  NaN and infinities become
 None in JSON (``json.dumps(..., allow_nan=False)`` always works) and "n/a" in text.
 """
@@ -12,10 +16,11 @@ from typing import Any
 from workbench.core.capability.assess import Capability
 from workbench.core.capability.formulas import Fallout
 from workbench.core.capability.histogram import text_histogram
-from workbench.core.capability.words import num, ppm
+from workbench.core.capability.picture import quantile_plot, scale, spec_strip, strip_legend
+from workbench.core.capability.statements import statements
 from workbench.core.model import SIGMA_METHOD_LABELS
 
-__all__ = ["capability_json", "capability_text", "capability_markdown", "text_histogram"]
+__all__ = ["capability_json", "capability_text", "capability_markdown", "pictures", "text_histogram", "title"]
 
 TITLE = "Capability against the specification"
 INDEX_NAMES = ("cp", "cpl", "cpu", "cpk", "pp", "ppl", "ppu", "ppk", "cpm", "k")
@@ -48,6 +53,10 @@ def _fallout(f: Fallout | None) -> dict | None:
     return None if f is None else {"below_lsl": f.below, "above_usl": f.above, "total": f.total}
 
 
+def _binned(b) -> dict | None:
+    return None if b is None else {"statistic": b.statistic, "df": b.df, "p": b.p, "cells": b.cells}
+
+
 def capability_json(cap: Capability) -> dict:
     """Every figure of the result as plain JSON types; bounds as [low, high] (None = unbounded)."""
     norm = cap.normality
@@ -71,13 +80,14 @@ def capability_json(cap: Capability) -> dict:
             "n": norm.n, "ad_statistic": norm.ad_statistic, "ad_adjusted": norm.ad_adjusted,
             "ad_p": norm.ad_p, "ad_p_method": norm.ad_p_method, "sw_statistic": norm.sw_statistic,
             "sw_p": norm.sw_p, "ppcc": norm.ppcc, "alpha": norm.alpha, "passed": norm.passed,
-            "verdict": norm.verdict},
+            "verdict": norm.verdict, "test": norm.test, "binned": _binned(norm.binned),
+            "interval_mean": norm.interval_mean, "interval_sd": norm.interval_sd},
         "fit": None if fit is None else {
             "distribution": fit.distribution, "params": dict(fit.params), "criterion": fit.criterion,
             "aic": fit.aic, "runner_up": fit.runner_up, "runner_up_aic": fit.runner_up_aic,
-            "shift": fit.shift, "skipped": list(fit.skipped),
+            "shift": fit.shift, "skipped": list(fit.skipped), "interval_step": fit.step,
             "candidates": [{"name": c.name, "params": dict(c.params), "loglik": c.loglik, "aic": c.aic,
-                            "ad_statistic": c.ad_statistic} for c in fit.candidates]},
+                            "ad_statistic": c.ad_statistic, "binned": _binned(c.binned)} for c in fit.candidates]},
         "boxcox_lambda": cap.boxcox_lambda,
         "boxcox": None if cap.boxcox is None else {
             "lambda": cap.boxcox.lam, "shift": cap.boxcox.shift, "mean": cap.boxcox.mean_t,
@@ -90,150 +100,74 @@ def capability_json(cap: Capability) -> dict:
                      "meets_required": cap.meets_required, "bound_meets_required": cap.bound_meets_required},
         "verdict": cap.verdict, "common_practice": cap.common_practice, "open_signals": cap.open_signals,
         "warnings": list(cap.warnings), "cautions": list(cap.cautions),
+        "resolution": None if cap.resolution is None else {
+            k: getattr(cap.resolution, k) for k in ("step", "decimals", "distinct", "step_over_sigma",
+                                                    "steps_in_spread", "tolerance_share", "rounded", "coarse")},
+        "departure": None if cap.departure is None else {
+            k: getattr(cap.departure, k) for k in ("model", "low", "high", "basis", "room", "share", "threshold",
+                                                   "matters")},
     }
     return _clean(out)
 
 
-def _bound(ci: tuple[float, float] | None, kind: str) -> str:
-    if ci is None:
-        return ""
-    low, high = ci
-    if kind == "lower" or not math.isfinite(high):
-        return f"\u2265 {num(low)}"
-    return f"{num(low)} \u2013 {num(high)}"
+def _wrap(text: str, width: int, indent: str = "") -> str:
+    return textwrap.fill(text, width, initial_indent=indent, subsequent_indent=" " * len(indent),
+                         break_on_hyphens=False)
 
 
-def _spec_line(cap: Capability) -> str:
-    parts = [f"LSL {cap.lsl:g}" if cap.lsl is not None else "no LSL",
-             (f"target {cap.target:g}" + ("" if cap.spec.target is not None else " (midpoint)"))
-             if cap.target is not None else None,
-             f"USL {cap.usl:g}" if cap.usl is not None else "no USL",
-             f"n = {cap.n}", f"required \u2265 {cap.required:g}"]
-    return " \u00b7 ".join(p for p in parts if p)
+def pictures(cap: Capability, readings=None, width: int = 80, unit: str | None = None,
+             plot_height: int = 12) -> tuple[str, str, str | None]:
+    """(strip, its legend, quantile plot or None without readings) on one shared horizontal scale."""
+    lo_hi = scale(cap, readings)
+    strip = spec_strip(cap, width, unit, lo_hi)
+    plot = None
+    if readings is not None and len(readings) and cap.sigma_overall > 0:
+        step = cap.resolution.step if cap.resolution is not None and cap.resolution.rounded else None
+        plot = quantile_plot(cap, readings, width, plot_height, unit, lo_hi, step)
+    return strip, strip_legend(cap)[:width], plot
 
 
-def _index_rows(cap: Capability) -> list[tuple[str, str, str, str, str, str]]:
-    # Cpm uses the overall SD and the target, and k is the centring ratio: they go in the overall column
-    pairs = (("cp", "pp"), ("cpl", "ppl"), ("cpu", "ppu"), ("cpk", "ppk"), (None, "cpm"), (None, "k"))
-    rows = []
-    for a, b in pairs:
-        left = (LABEL[a], num(getattr(cap, a)), _bound(getattr(cap, f"{a}_ci", None), cap.ci_kind)) if a else ("", "", "")
-        rows.append(left + (LABEL[b], num(getattr(cap, b)), _bound(getattr(cap, f"{b}_ci", None), cap.ci_kind)))
-    return rows
+def title(name: str | None = None, unit: str | None = None) -> str:
+    """"Capability of fill (mL) against the specification"."""
+    if not name and not unit:
+        return TITLE
+    what = name or "the readings"
+    return f"Capability of {what}" + (f" ({unit})" if unit else "") + " against the specification"
 
 
-def _ppm_rows(cap: Capability) -> list[tuple[str, str, str, str]]:
-    rows = []
-    for name, f in (("expected, within", cap.ppm_within), ("expected, overall", cap.ppm_overall),
-                    ("observed", cap.ppm_observed)):
-        rows.append((name, ppm(f.below) if f else "n/a", ppm(f.above) if f else "n/a", ppm(f.total) if f else "n/a"))
-    return rows
+def capability_text(cap: Capability, width: int = 80, readings=None, name: str | None = None,
+                    unit: str | None = None) -> str:
+    """The capability section for the terminal; no line is longer than ``width``.
 
-
-def _fit_line(cap: Capability) -> str | None:
-    fit = cap.fit
-    if fit is None:
-        return None
-    params = ", ".join(f"{k} {v:.4g}" for k, v in fit.params)
-    text = f"Fitted model: {fit.distribution} ({params}), AIC {fit.aic:.1f}"
-    if fit.runner_up:
-        lower = fit.runner_up_aic < fit.aic   # the chosen model was asked for, not picked by AIC
-        text += f"; {'best alternative' if lower else 'runner-up'} {fit.runner_up}, AIC {fit.runner_up_aic:.1f}"
-    return text + (f"; not fitted: {'; '.join(fit.skipped)}" if fit.skipped else "") + "."
-
-
-def _sigma_line(cap: Capability) -> str:
-    label = SIGMA_METHOD_LABELS.get(cap.sigma_within_method, cap.sigma_within_method)
-    text = f"\u03c3 within {num(cap.sigma_within)} ({label}), \u03c3 overall {num(cap.sigma_overall)}"
-    if cap.sigma_ratio is not None:
-        text += f", ratio {num(cap.sigma_ratio)}"
-    return text + f"; mean {num(cap.mean)}"
-
-
-def _columns(rows: list[tuple[str, ...]], right: tuple[bool, ...]) -> list[str]:
-    """Rows laid out in columns as wide as their widest cell (numbers right-aligned)."""
-    widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
-    return ["  ".join(c.rjust(w) if r else c.ljust(w) for c, w, r in zip(row, widths, right)).rstrip()
-            for row in rows]
-
-
-def _index_table(cap: Capability, ci: str, width: int) -> list[str]:
-    """Within and overall indices side by side when both fit, else one block under the other; a block
-    too narrow for its bounds puts each bound on the line under its index.  Numbers are never cut."""
-    rows = _index_rows(cap)
-    blocks = []
-    for side, head in ((0, "within"), (3, "overall")):
-        body = [r[side:side + 3] for r in rows if r[side]]
-        blocks.append([(head, "value", ci)] + body)
-    laid = [_columns(b, (False, True, False)) for b in blocks]
-    if all(max(len(x) for x in lines) <= width for lines in laid):
-        left = max(len(x) for x in laid[0])
-        if left + 2 + max(len(x) for x in laid[1]) <= width:
-            both = [(a.ljust(left) + "  " + b).rstrip() for a, b in zip(laid[0] + [""] * len(laid[1]),
-                                                                         laid[1])]
-            return both
-        return laid[0] + [""] + laid[1]
-    out: list[str] = []
-    for block in blocks:  # too narrow even for one block: the bound under its index
-        for line, cells in zip(_columns([b[:2] for b in block], (False, True)), block):
-            out += [line] + ([f"  {cells[2]}"] if cells[2] else [])
-        out.append("")
-    return out[:-1]
-
-
-def _ppm_table(cap: Capability, width: int) -> list[str]:
-    """The ppm table; when it does not fit, each row's figures go on the line under its name."""
-    rows = [("ppm", "below LSL", "above USL", "total")] + _ppm_rows(cap)
-    lines = _columns(rows, (False, True, True, True))
-    if max(len(x) for x in lines) <= width:
-        return lines
-    out = ["ppm"]
-    for name, below, above, total in rows[1:]:
-        cells = [f"below LSL {below}", f"above USL {above}", f"total {total}"]
-        one = "  " + " · ".join(cells)
-        out += [name] + ([one] if len(one) <= width else [f"  {c}" for c in cells])
-    return out
-
-
-def capability_text(cap: Capability, width: int = 80) -> str:
-    """The capability section for the terminal; no line is longer than ``width``."""
+    Verdict first, then the specification strip, the figures as statements, the normal quantile
+    plot (when the readings are given), the warnings and the notes.
+    """
     width = max(int(width), 40)
-    wrap = lambda t, ind="": textwrap.fill(t, width, initial_indent=ind, subsequent_indent=" " * len(ind))  # noqa: E731
-    ci = f"{cap.ci_level * 100:g}% {'lower bound' if cap.ci_kind == 'lower' else 'interval'}"
-    out = [TITLE, "\u2500" * min(len(TITLE), width), wrap(_spec_line(cap)),
-           wrap(f"Method: {cap.method} \u2014 {cap.method_reason}."), wrap(_sigma_line(cap)), ""]
-    out += _index_table(cap, ci, width)
-    out += [""] + _ppm_table(cap, width)
-    out.append("")
-    if cap.normality is not None:
-        out.append(wrap(f"Normality: {cap.normality.verdict} p-value: {cap.normality.ad_p_method}."))
-    fit = _fit_line(cap)
-    if fit:
-        out.append(wrap(fit))
-    out += [wrap(f"Verdict: {cap.verdict}"), wrap(cap.common_practice)]
-    if cap.warnings:
-        out += ["", "Warnings:"] + [wrap(w, "  ! ") for w in cap.warnings]
-    out += ["", "Notes:"] + [wrap(c, "  - ") for c in cap.cautions]
-    return "\n".join(out)
+    head = title(name, unit)
+    says = statements(cap, unit, name)
+    out = [head[:width], "\u2500" * min(len(head), width), _wrap(says[0][1], width), ""]
+    strip, legend, plot = pictures(cap, readings, width, unit)
+    out += [strip, legend, ""]
+    out += [_wrap(t, width, "  ") for k, t in says[1:] if k not in ("warning", "note")]
+    if plot:
+        out += ["", "Normal quantile plot", plot]
+    warnings = [t for k, t in says if k == "warning"]
+    if warnings:
+        out += ["", "Warnings:"] + [_wrap(w, width, "  ! ") for w in warnings]
+    out += ["", "Notes:"] + [_wrap(t, width, "  - ") for k, t in says if k == "note"]
+    return "\n".join(line.rstrip() for line in out)
 
 
-def capability_markdown(cap: Capability) -> str:
-    """The capability section of the review document (Markdown)."""
-    ci = f"{cap.ci_level * 100:g}% {'lower bound' if cap.ci_kind == 'lower' else 'interval'}"
-    out = [f"### {TITLE}", "", f"- Specification: {_spec_line(cap)}",
-           f"- Method: **{cap.method}** \u2014 {cap.method_reason}.", f"- {_sigma_line(cap)}", "",
-           f"| Index | Value | {ci} | Index | Value | {ci} |", "|---|---:|---|---|---:|---|"]
-    out += [f"| {a} | {va} | {ba} | {b} | {vb} | {bb} |" for a, va, ba, b, vb, bb in _index_rows(cap)]
-    out += ["", "| ppm | below LSL | above USL | total |", "|---|---:|---:|---:|"]
-    out += [f"| {r[0]} | {r[1]} | {r[2]} | {r[3]} |" for r in _ppm_rows(cap)]
-    out.append("")
-    if cap.normality is not None:
-        out.append(f"- Normality: {cap.normality.verdict} (p-value: {cap.normality.ad_p_method}.)")
-    fit = _fit_line(cap)
-    if fit:
-        out.append(f"- {fit}")
-    out += [f"- **Verdict:** {cap.verdict}", f"- {cap.common_practice}"]
-    if cap.warnings:
-        out += ["", "**Warnings**", ""] + [f"- {w}" for w in cap.warnings]
-    out += ["", "**Notes**", ""] + [f"- {c}" for c in cap.cautions]
+def capability_markdown(cap: Capability, readings=None, name: str | None = None, unit: str | None = None) -> str:
+    """The capability section of the review document (Markdown), in the same composition as the text."""
+    says = statements(cap, unit, name)
+    strip, legend, plot = pictures(cap, readings, 88, unit)
+    out = [f"### {title(name, unit)}", "", f"**{says[0][1]}**", "", "```", strip, legend, "```", ""]
+    out += [f"- {t}" for k, t in says[1:] if k not in ("warning", "note")]
+    if plot:
+        out += ["", "Normal quantile plot of the readings with the model's line:", "", "```", plot, "```"]
+    warnings = [t for k, t in says if k == "warning"]
+    if warnings:
+        out += ["", "**Warnings**", ""] + [f"- {w}" for w in warnings]
+    out += ["", "**Notes**", ""] + [f"- {t}" for k, t in says if k == "note"]
     return "\n".join(out) + "\n"

@@ -1,4 +1,11 @@
-"""The fit view: capability against the specification, with its histogram, bounds and cautions."""
+"""The fit view: capability against the specification, in the workbench's own composition.
+
+Left, the pictures on one horizontal scale: the specification strip (LSL … USL once, the within and
+overall natural spread as two bands, mean and target marked) above the normal quantile plot of the
+readings with the model's line.  Right, the figures as statements led by the verdict: each index with
+its bound, the fallout one sentence per side, the model and why, the resolution, the size of any
+departure from normal, the warnings and the notes.  The standing cautions stay at the top.
+"""
 from __future__ import annotations
 
 from dataclasses import replace
@@ -13,13 +20,12 @@ from textual.widgets import Static
 
 from workbench.tui.messages import Computed
 from workbench.tui.session import Snapshot
-from workbench.tui.widgets.histogram import FitPlot, fit_picture
 from workbench.tui.widgets.keybar import KeyBar
 
 METHODS = ("normal", "box-cox", "percentile", "auto")
-CAUTION = ("Capability indices are estimates from a sample, and they are only meaningful for a stable "
-           "process (in statistical control). They support, and never replace, the customer's requirements, "
-           "your quality system and local regulations.")
+CAUTION = ("Indices are estimates from a sample, meaningful only for a stable process (in statistical control); "
+           "they support, and never replace, the customer's requirements, your quality system and local "
+           "regulations.")
 
 
 def stability_text(open_count: int, explained: int, excluded: int) -> Text:
@@ -33,6 +39,34 @@ def stability_text(open_count: int, explained: int, excluded: int) -> Text:
     else:
         t.append(f"no open signals on the charts ({explained} explained or no cause found, {excluded} "
                  "excluded from the limits).")
+    return t
+
+
+STYLE = {"verdict": "bold", "warning": "bold", "note": "italic", "practice": "dim"}
+
+
+def characteristic(snap: Snapshot) -> tuple[str | None, str | None]:
+    """The characteristic's name and unit, when the setup or the data file states them."""
+    s = snap.state.settings
+    return getattr(s, "name", None), getattr(s, "unit", None)
+
+
+def figures_text(says: list[tuple[str, str]], gate: Text | None = None) -> Text:
+    """The statements as one text: the verdict first (then the stability gate), warnings marked with !,
+    notes set apart."""
+    t = Text()
+    last = None
+    for kind, sentence in says:
+        if kind in ("warning", "note") and kind != last:
+            t.append("\nWarnings\n" if kind == "warning" else "\nNotes\n", style="bold underline")
+        prefix = "! " if kind == "warning" else ("· " if kind == "note" else "")
+        t.append(prefix + sentence + "\n", style=STYLE.get(kind, ""))
+        if kind == "verdict":
+            if gate is not None:
+                t.append_text(gate)
+                t.append("\n")
+            t.append("\n")
+        last = kind
     return t
 
 
@@ -62,13 +96,16 @@ class FitScreen(Screen):
     def compose(self) -> ComposeResult:
         yield Static(id="fit-head", markup=False)
         with Horizontal(id="fit-body"):
-            yield FitPlot(id="fit-plot")
+            with VerticalScroll(id="fit-pictures"):
+                yield Static("drawing…", id="fit-strip", markup=False)
+                yield Static("", id="fit-plot", markup=False)
             with VerticalScroll(id="fit-side"):
                 yield Static("assessing…", id="fit-text", markup=False)
         yield KeyBar()
 
     def on_mount(self) -> None:
-        self.query_one("#fit-side").border_title = "capability"
+        self.query_one("#fit-side").border_title = "figures"
+        self.query_one("#fit-pictures").border_title = "specification and readings"
         if self.app.snapshot is not None:
             self.show_snapshot(self.app.snapshot)
 
@@ -102,24 +139,22 @@ class FitScreen(Screen):
             t.append(" ")
         if self.preview:
             t.append(f" previewing — the case uses {spec.method}; u: use this method for the case", style="italic")
-        t.append("\n")
-        mk = snap.marks
-        t.append_text(stability_text(mk.open_count, mk.explained_count + mk.no_cause_count, mk.excluded_count))
         return t
 
     def compute(self) -> None:
-        plot = self.query_one(FitPlot)
-        side = self.query_one("#fit-side")
+        pics = self.query_one("#fit-pictures")
         self.token += 1
-        self._assess(self.token, self.snap, plot.size.width, plot.size.height, max(side.size.width - 2, 40),
+        self._assess(self.token, self.snap, max(pics.size.width - 5, 40), max(pics.size.height - 12, 6),
                      self.preview)
 
     @work(thread=True, exclusive=True, group="fit")
-    def _assess(self, token: int, snap: Snapshot, width: int, height: int, text_width: int,
+    def _assess(self, token: int, snap: Snapshot, width: int, plot_height: int,
                 preview: str | None = None) -> None:
         from workbench.core.analysis import capability_for
-        from workbench.core.capability.report import capability_text
+        from workbench.core.capability.report import pictures
+        from workbench.core.capability.statements import statements
         a = snap.analysis
+        name, unit = characteristic(snap)
         try:
             from workbench.core.case.answers import statuses
             states = statuses(a, snap.state)
@@ -131,12 +166,14 @@ class FitScreen(Screen):
                              open_signals=len(open_signals(a, states)))
             if cap is None:
                 raise ValueError("no specification is set (press s on the bench to give LSL / USL)")
-            picture = fit_picture(cap, a.readings(), width, height)
-            words = Text(capability_text(cap, text_width))
+            strip, legend, plot = pictures(cap, a.readings(), width, unit, plot_height)
+            mk = snap.marks
+            gate = stability_text(mk.open_count, mk.explained_count + mk.no_cause_count, mk.excluded_count)
+            words = figures_text(statements(cap, unit, name), gate)
         except Exception as exc:  # the reason is shown in the view
             self.post_message(Computed("fit", token, None, str(exc) or type(exc).__name__))
             return
-        self.post_message(Computed("fit", token, (picture, words, cap)))
+        self.post_message(Computed("fit", token, (strip + "\n" + legend, plot or "", words, cap)))
 
     @on(Computed)
     def computed(self, msg: Computed) -> None:
@@ -145,10 +182,12 @@ class FitScreen(Screen):
         text = self.query_one("#fit-text", Static)
         if msg.error:
             text.update(Text(f"No capability figures: {msg.error}", style="bold"))
-            self.query_one(FitPlot).show(None)
+            self.query_one("#fit-strip", Static).update("")
+            self.query_one("#fit-plot", Static).update("")
             return
-        picture, words, self.capability = msg.result
-        self.query_one(FitPlot).show(picture)
+        strip, plot, words, self.capability = msg.result
+        self.query_one("#fit-strip", Static).update(Text(strip, no_wrap=True))
+        self.query_one("#fit-plot", Static).update(Text(plot, no_wrap=True))
         text.update(words)
 
     def on_resize(self) -> None:
