@@ -127,10 +127,18 @@ def centring_k(mean: float, lsl: float, usl: float) -> float:
 def cpm_index(mean: float, sd: float, target: float, lsl: float, usl: float) -> float | None:
     """Cpm = (USL - LSL) / (6 sqrt(sd^2 + (mean - T)^2)); None when the root is 0.
 
+    The plug-in estimator Cp / sqrt(1 + xi^2), xi = (mean - T)/sd, with ``sd`` the sample standard
+    deviation (n - 1).  Chan, Cheng and Spiring, who introduced the index, estimate the root with
+    sum((x - T)^2)/(n - 1) = sd^2 + n/(n - 1) (mean - T)^2 instead: their estimate is a little lower
+    for an off-target process.
+
     References
     ----------
-    Chan, L. K., Cheng, S. W. and Spiring, F. A. (1988), "A new measure of process
-    capability: Cpm", Journal of Quality Technology 20(3).
+    Montgomery, D. C., *Introduction to Statistical Quality Control*, the process capability chapter
+    (Cpm = Cp / sqrt(1 + V^2), V = (x-bar - T)/s) [from memory]; Boyles, R. A. (1991), "The Taguchi
+    capability index", Journal of Quality Technology 23(1), whose interval uses the same xi.
+    Chan, L. K., Cheng, S. W. and Spiring, F. A. (1988), "A new measure of process capability: Cpm",
+    Journal of Quality Technology 20(3), for the index itself (with the other estimator, see above).
     """
     tau = math.sqrt(sd * sd + (mean - target) ** 2)
     return (usl - lsl) / (6.0 * tau) if tau > 0 else None
