@@ -10,6 +10,9 @@ DEMO_DIR = Path(__file__).resolve().parent.parent / "demo_data"
 DEMO_FILE = DEMO_DIR / "filler_line3.csv"
 """The main demo: a six-head liquid filler, fill volume in mL."""
 
+DEMO_NAME, DEMO_UNIT = "fill volume", "mL"
+"""The demo's characteristic as demo_data/README.md states it (fill volume in mL)."""
+
 # Specifications stated in demo_data/README.md for each demo file.
 DEMO_SPECS: dict[str, Spec] = {
     "filler_line3.csv": Spec(lsl=497.0, usl=503.0, target=500.0),
@@ -29,5 +32,5 @@ def demo_settings_for(path: str | Path) -> Settings | None:
     """Default settings (with the stated specification) when ``path`` is a bundled demo file."""
     p = Path(path).resolve()
     if p.parent == DEMO_DIR and p.name in DEMO_SPECS:
-        return Settings(spec=DEMO_SPECS[p.name])
+        return Settings(spec=DEMO_SPECS[p.name], name=DEMO_NAME, unit=DEMO_UNIT)
     return None

@@ -67,6 +67,9 @@ def add_setup_options(p: argparse.ArgumentParser) -> None:
     g.add_argument("--spread-rules", metavar="SET", help="rule set for the spread chart (default: limits-only)")
     g.add_argument("--known-mean", type=_float, metavar="MU", help="standard value of the process mean")
     g.add_argument("--known-sigma", type=_float, metavar="SIGMA", help="standard value of sigma")
+    g.add_argument("--name", metavar="TEXT", help="the characteristic's name, shown on charts, fit view and reports "
+                   "(default: from the value column's header, e.g. fill_mL)")
+    g.add_argument("--unit", metavar="UNIT", help="its unit, e.g. mL (default: from the header when obvious)")
     s = p.add_argument_group("specification and capability")
     s.add_argument("--lsl", type=_float, help="lower specification limit")
     s.add_argument("--usl", type=_float, help="upper specification limit")
@@ -97,7 +100,8 @@ def layout_request_from_args(args: argparse.Namespace) -> LayoutRequest:
 _SETTING_ARGS = {"chart": "chart", "sigma": "sigma", "rules": "rules", "spread_rules": "spread_rules",
                  "known_mean": "known_mean", "known_sigma": "known_sigma", "ewma_lambda": "ewma_lambda",
                  "ewma_l": "ewma_l", "ewma_asymptotic": "ewma_asymptotic", "cusum_k": "cusum_k",
-                 "cusum_h": "cusum_h", "head_start": "cusum_head_start", "laney": "laney"}
+                 "cusum_h": "cusum_h", "head_start": "cusum_head_start", "laney": "laney", "name": "name",
+                 "unit": "unit"}
 _SPEC_ARGS = {"lsl": "lsl", "usl": "usl", "target": "target", "confidence": "confidence",
               "required": "required", "capability_method": "method", "bounds": "bounds", "shift": "shift"}
 

@@ -140,3 +140,24 @@ def test_report_of_a_case_whose_data_changed_still_gives_the_record(capsys, tmp_
     assert code == 1 and "Data unavailable" in out and "digit slip" in out and "has changed" in err
     code, out, _ = run(capsys, "report", "c.case.json", "--format", "json")
     assert code == 1 and json.loads(out)["data_unavailable"]
+
+
+def test_name_and_unit_on_every_report(capsys, tmp_path):
+    """demo_data/README.md: the demo's fill volume is in mL; --name/--unit and a header like fill_mL name it."""
+    code, out, err = run(capsys, "report", str(DEMO / "filler_line3.csv"), "--format", "text")
+    assert code == 0, err
+    assert "measured  fill volume (mL)" in out and "Capability of fill volume (mL)" in out and "503 mL" in out
+    code, out, _ = run(capsys, "report", str(DEMO / "filler_line3.csv"), "--format", "markdown")
+    assert "| measured | fill volume (mL) |" in out and "### Capability of fill volume (mL)" in out
+    path = tmp_path / "bores.csv"
+    rows = [f"{i + 1},{10 + ((i * 7) % 11 - 5) / 100:.2f}" for i in range(60)]
+    path.write_text("part,bore_mm\n" + "\n".join(rows) + "\n", encoding="utf-8")
+    code, out, err = run(capsys, "report", str(path), "--layout", "individuals", "--subgroup", "part", "--value",
+                         "bore_mm", "--lsl", "9.8", "--usl", "10.2", "--format", "json")
+    assert code == 0, err
+    assert json.loads(out)["characteristic"] == {"name": "bore", "unit": "mm"}
+    code, out, err = run(capsys, "report", str(path), "--layout", "individuals", "--subgroup", "part", "--value",
+                         "bore_mm", "--lsl", "9.8", "--usl", "10.2", "--name", "bore diameter", "--unit", "µm",
+                         "--format", "text")
+    assert code == 0, err
+    assert "measured  bore diameter (µm)" in out and "10.2 µm" in out

@@ -93,5 +93,26 @@ async def test_fit_view_composition_at_both_sizes(in_tmp, opened, size):
         assert side.startswith("Verdict:")                                       # statements led by the verdict
         assert "Below the LSL" in side and "Above the USL" in side
         assert "local regulations" in text                                       # the standing caution
+        assert "fill volume (mL)" in text and "503 mL" in side                   # demo_data/README.md: in mL
         assert "histogram" not in text.lower()
+        await pilot.press("escape", "q")
+
+
+async def test_name_and_unit_on_the_charts_and_from_the_setup(in_tmp, opened):
+    app = demo_app()
+    async with opened(app, size=(120, 36)) as pilot:
+        assert "fill volume, mL" in screen_text(app)                             # the bench charts' titles
+        await pilot.press("s")
+        await settle(pilot)
+        dialog = app.screen
+        dialog.query_one("#name").value = "net volume"
+        dialog.query_one("#unit").value = "cL"
+        dialog.action_apply()
+        await settle(pilot)
+        settings = app.snapshot.state.settings
+        assert (settings.name, settings.unit) == ("net volume", "cL")            # recorded in the trail
+        assert app.snapshot.events[-1].kind == "settings"
+        await pilot.press("f")
+        await settle(pilot)
+        assert "capability of net volume (cL)" in screen_text(app)
         await pilot.press("escape", "q")

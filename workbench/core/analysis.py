@@ -513,3 +513,9 @@ def capability_for(analysis: Analysis, states: dict | None = None):
             cache[n_open] = assess(analysis.readings(), analysis.sigma_within, analysis.sigma_method, spec,
                                    open_signals=n_open)
     return cache[n_open]
+
+
+def characteristic_of(analysis: Analysis) -> tuple[str | None, str | None]:
+    """The characteristic's (name, unit): from the setup, else from an obvious value-column header."""
+    from workbench.core.data.units import characteristic
+    return characteristic(analysis.settings, analysis.dataset.layout)

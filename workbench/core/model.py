@@ -294,10 +294,17 @@ class Settings:
     cusum_head_start: float = 0.0
     laney: str = "auto"
     """Attribute charts: auto | on | off (Laney p'/u' correction)."""
+    name: str | None = None
+    """The characteristic's name (e.g. "fill volume"); None: read from the value column's header if obvious."""
+    unit: str | None = None
+    """Its unit (e.g. "mL"); None: read from the value column's header (``fill_mL``) if obvious."""
 
     def as_dict(self) -> dict[str, Any]:
         out = {k: getattr(self, k) for k in self.__dataclass_fields__ if k != "spec"}
         out["spec"] = self.spec.as_dict() if self.spec else None
+        for k in ("name", "unit"):            # absent when not given: older case files keep their exact text
+            if out[k] is None:
+                del out[k]
         return out
 
     @classmethod

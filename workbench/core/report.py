@@ -10,7 +10,7 @@ from typing import Any
 
 import numpy as np
 
-from workbench.core.analysis import comparison_of, sigma_label
+from workbench.core.analysis import characteristic_of, comparison_of, sigma_label
 from workbench.core.model import Analysis, ChartResult, WorkbenchError
 from workbench.core.text import fmt, md, nums, printable
 
@@ -104,6 +104,7 @@ def report_json(a: Analysis, states: dict | None = None, with_values: bool = Fal
         "source": {"path": ds.path, "sha256": ds.sha256, "rows": ds.rows, "bytes": ds.size_bytes,
                    "encoding": ds.encoding, "missing_cells": ds.missing, "skipped_cells": ds.skipped_bad},
         "layout": ds.layout.as_dict(),
+        "characteristic": dict(zip(("name", "unit"), characteristic_of(a))),
         "chart": a.chart,
         "subgroups": ds.m,
         "streams": list(ds.streams),
@@ -185,6 +186,9 @@ def report_text(a: Analysis, states: dict | None = None, width: int = 100) -> st
          + (" …" if ds.k > 12 else ""),
          f"sha256    {ds.sha256}",
          f"mapping   {_p(describe_mapping(a))}"]
+    name, unit = characteristic_of(a)
+    if name or unit:
+        L.append(f"measured  {_p(_what(name, unit))}")
     if ds.missing or ds.skipped_bad:
         L.append(f"cells     {ds.missing} missing" + (f", {ds.skipped_bad} not numbers (skipped)" if ds.skipped_bad
                                                          else "") + " — left out of the statistics")
@@ -226,12 +230,20 @@ def report_text(a: Analysis, states: dict | None = None, width: int = 100) -> st
     if cap is not None:
         from workbench.core.capability.report import capability_text
         L.append("")
-        L.append(capability_text(cap, width=width))
+        L.append(capability_text(cap, width=width, readings=a.readings(), name=_p(name) if name else None,
+                                 unit=_p(unit) if unit else None))
     return "\n".join(L) + "\n"
 
 
 def _md_escape(text: str) -> str:
     return md(text)
+
+
+def _what(name: str | None, unit: str | None) -> str:
+    """"fill volume (mL)", "fill volume" or "in mL"."""
+    if name:
+        return name + (f" ({unit})" if unit else "")
+    return f"in {unit}"
 
 
 def _p(text: Any) -> str:
@@ -249,7 +261,11 @@ def report_markdown(a: Analysis, states: dict | None = None) -> str:
          f"| file | {esc(ds.path)} |", f"| SHA-256 | `{ds.sha256}` |", f"| rows | {ds.rows} |", f"| missing cells | {ds.missing} |",
          *([f"| cells skipped (not numbers) | {ds.skipped_bad} |"] if ds.skipped_bad else []),
          f"| subgroups | {ds.m} |", f"| streams | {esc(', '.join(ds.streams))} |",
-         f"| mapping | {esc(describe_mapping(a))} |", ""]
+         f"| mapping | {esc(describe_mapping(a))} |"]
+    name, unit = characteristic_of(a)
+    if name or unit:
+        L.append(f"| measured | {esc(_what(name, unit))} |")
+    L.append("")
     for n in ds.notices:
         L.append(f"- Notice: {esc(n)}")
     L += ["", "## Chart and limits", "",
@@ -291,7 +307,8 @@ def report_markdown(a: Analysis, states: dict | None = None) -> str:
     cap = capability_for(a, states)
     if cap is not None:
         from workbench.core.capability.report import capability_markdown
-        L += ["", capability_markdown(cap)]
+        L += ["", capability_markdown(cap, readings=a.readings(), name=esc(name) if name else None,
+                                      unit=esc(unit) if unit else None)]
     return "\n".join(L) + "\n"
 
 

@@ -61,9 +61,15 @@ class ChartData:
     """Point classes of ``lower`` (flagged only where that side signalled)."""
 
 
-def chart_data(c, codes: np.ndarray) -> ChartData:
+MEASURED = ("xbar", "r", "s", "i", "mr", "ewma", "cusum")
+"""Charts whose values are in the readings' unit (count charts plot proportions and counts)."""
+
+
+def chart_data(c, codes: np.ndarray, unit: str | None = None) -> ChartData:
     """The series of a ChartResult to draw; a CUSUM gets −C⁻ as its lower series, and each side
-    shows the flags of the points where that side is beyond H."""
+    shows the flags of the points where that side is beyond H.  ``unit`` (the characteristic's, e.g.
+    "fill volume, mL") is added to the title of charts in the readings' unit."""
+    what = f" · {unit}" if unit and c.name in MEASURED else ""
     if c.name == "cusum" and "cusum-" in c.extra:
         cp, cm = np.asarray(c.values, float), np.asarray(c.extra["cusum-"], float)
         with np.errstate(invalid="ignore"):
@@ -71,9 +77,9 @@ def chart_data(c, codes: np.ndarray) -> ChartData:
         flagged = (codes == OPEN) | (codes == REVIEWED)
         upper = np.where(flagged & down & ~up, NORMAL, codes).astype(codes.dtype)
         lower = np.where(flagged & down, codes, NORMAL).astype(codes.dtype)
-        return ChartData(c.name, f"{c.name} · {c.title} · C⁺ above, −C⁻ below", cp, c.center, c.lcl, c.ucl,
+        return ChartData(c.name, f"{c.name} · {c.title}{what} · C⁺ above, −C⁻ below", cp, c.center, c.lcl, c.ucl,
                          upper, -cm, lower)
-    return ChartData(c.name, f"{c.name} · {c.title}", c.values, c.center, c.lcl, c.ucl, codes)
+    return ChartData(c.name, f"{c.name} · {c.title}{what}", c.values, c.center, c.lcl, c.ucl, codes)
 
 
 @dataclass(frozen=True, eq=False)

@@ -91,6 +91,10 @@ class SetupDialog(ModalScreen[SetupResult | None]):
                                 placeholder="beyond-limits,trend,same-side:9", disabled=preset != CUSTOM)
                 yield Static(rules_text(rules), id="rule-words")
                 with Grid(classes="setup-grid"):
+                    yield Label("Characteristic")
+                    yield Input(value=s.name or "", id="name", placeholder="e.g. fill volume (default: the header)")
+                    yield Label("Unit")
+                    yield Input(value=s.unit or "", id="unit", placeholder="e.g. mL (default: the header)")
                     yield Label("LSL")
                     yield Input(value=text(spec.lsl), id="lsl", placeholder="lower specification limit")
                     yield Label("USL")
@@ -144,7 +148,8 @@ class SetupDialog(ModalScreen[SetupResult | None]):
         current = self.settings.rules or "western-electric"
         settings = replace(self.settings, chart=str(self.query_one("#chart", Select).value),
                            sigma=str(self.query_one("#sigma", Select).value),
-                           rules=self.settings.rules if rules == current else rules, spec=spec)
+                           rules=self.settings.rules if rules == current else rules, spec=spec,
+                           name=val("name").strip() or None, unit=val("unit").strip() or None)
         return SetupResult(settings, author)
 
     @on(Button.Pressed, "#confirm")

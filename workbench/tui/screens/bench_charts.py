@@ -58,7 +58,11 @@ class BenchCharts:
     def _build(self, token: int, snap: Snapshot, win: Window, sizes: list[tuple[int, int]],
                selected: tuple[int, int] | None = None) -> None:
         a = snap.analysis
-        charts = [chart_data(c, snap.marks.codes[c.name]) for c in a.charts[:2]]
+        from workbench.core.analysis import characteristic_of
+        from workbench.core.text import printable
+        name, unit = characteristic_of(a)
+        what = printable(", ".join(t for t in (name, unit) if t)) or None
+        charts = [chart_data(c, snap.marks.codes[c.name], what) for c in a.charts[:2]]
         cols = max(sizes[0][0] - 14, 10)
         lw = label_width(charts, win, cols)
         m = snap.dataset.m

@@ -46,9 +46,10 @@ STYLE = {"verdict": "bold", "warning": "bold", "note": "italic", "practice": "di
 
 
 def characteristic(snap: Snapshot) -> tuple[str | None, str | None]:
-    """The characteristic's name and unit, when the setup or the data file states them."""
-    s = snap.state.settings
-    return getattr(s, "name", None), getattr(s, "unit", None)
+    """The characteristic's name and unit (printable), when the setup or the data file's header states them."""
+    from workbench.core.analysis import characteristic_of
+    from workbench.core.text import printable
+    return tuple(printable(v) if v else None for v in characteristic_of(snap.analysis))
 
 
 def figures_text(says: list[tuple[str, str]], gate: Text | None = None) -> Text:
@@ -125,7 +126,9 @@ class FitScreen(Screen):
     def _head(self) -> Text:
         snap, spec = self.snap, self.spec()
         t = Text()
-        t.append("Fit — capability against the specification\n", style="bold")
+        name, unit = characteristic(snap)
+        what = (f" of {name}" if name else "") + (f" ({unit})" if unit else "")
+        t.append(f"Fit — capability{what} against the specification\n", style="bold")
         t.append(CAUTION + "\n", style="italic")
         if spec is None or (spec.lsl is None and spec.usl is None):
             t.append("\nNo specification is set, so there is nothing to fit against. Press s to open the setup "
