@@ -11,6 +11,7 @@ from typing import Any, Iterable
 
 import numpy as np
 
+from workbench.core.charts import constants as K
 from workbench.core.charts import variables as C
 from workbench.core.charts import rules as R
 from workbench.core.charts.signals import SignalTable, group_firings
@@ -75,11 +76,11 @@ def resolve_sigma(chart: str, ds: Dataset, settings: Settings) -> str:
         return "rbar"
     if method == "mrbar" and not individuals:
         raise WorkbenchError("mrbar (MR̄/d2) applies to individuals data; use rbar, sbar or pooled for subgroups")
-    if method in ("rbar", "sbar", "pooled") and individuals:
+    if method in ("rbar", "sbar", "pooled", "pooled-sbar") and individuals:
         raise WorkbenchError(f"{method} needs subgroups of two or more readings; use mrbar for individuals")
     if method == "rbar" and ds.is_summary and ds.summary_range is None:
         raise WorkbenchError("rbar needs subgroup ranges; this summary file has standard deviations")
-    if method in ("sbar", "pooled") and ds.is_summary and ds.summary_sd is None:
+    if method in ("sbar", "pooled", "pooled-sbar") and ds.is_summary and ds.summary_sd is None:
         raise WorkbenchError(f"{method} needs subgroup standard deviations; this summary file has ranges")
     if method == "known" and settings.known_sigma is None:
         raise WorkbenchError("sigma method 'known' needs --known-sigma")
@@ -259,11 +260,14 @@ def analyse(dataset: Dataset, settings: Settings = Settings(), exclusions: Itera
             else:
                 w = stats.n[use].astype(float)
                 center = float(np.sum(w * stats.mean[use]) / w.sum()) if w.sum() > 0 else float("nan")
-        base = [C.xbar_chart(stats, center, sigma, ex_sub)]
-        if chart in ("xbar-s",) or (chart in ("ewma", "cusum") and sigma_method in ("sbar", "pooled")):
-            base.append(C.sd_chart(stats, sigma, ex_sub))
+        # the textbook pooled form: s̄ is the S chart's centre and each subgroup's σ is s̄/c4(nᵢ), so the
+        # limits are x̿ ± A3(nᵢ)s̄ and B3(nᵢ)s̄ … B4(nᵢ)s̄
+        pts = sigma / K.table(stats.n, K.c4) if sigma_method == "pooled-sbar" else sigma
+        base = [C.xbar_chart(stats, center, pts, ex_sub)]
+        if chart in ("xbar-s",) or (chart in ("ewma", "cusum") and sigma_method in ("sbar", "pooled", "pooled-sbar")):
+            base.append(C.sd_chart(stats, pts, ex_sub))
         else:
-            base.append(C.range_chart(stats, sigma, ex_sub))
+            base.append(C.range_chart(stats, pts, ex_sub))
         _subgroup_warnings(chart, stats, warnings)
 
     if chart in ("ewma", "cusum"):
@@ -477,8 +481,8 @@ def capability_of(analysis: Analysis):
         else:
             _check_capability_input(analysis)
             from workbench.core.capability.assess import assess
-            cache["_capability"] = assess(analysis.readings(), analysis.sigma_within, analysis.sigma_method, spec,
-                                          open_signals=len(analysis.signals))
+            cache["_capability"] = assess(analysis.readings(), capability_sigma(analysis), analysis.sigma_method,
+                                          spec, open_signals=len(analysis.signals))
     return cache["_capability"]
 
 
@@ -510,7 +514,7 @@ def capability_for(analysis: Analysis, states: dict | None = None):
         else:
             from workbench.core.capability.assess import assess
             _check_capability_input(analysis)
-            cache[n_open] = assess(analysis.readings(), analysis.sigma_within, analysis.sigma_method, spec,
+            cache[n_open] = assess(analysis.readings(), capability_sigma(analysis), analysis.sigma_method, spec,
                                    open_signals=n_open)
     return cache[n_open]
 
@@ -519,3 +523,13 @@ def characteristic_of(analysis: Analysis) -> tuple[str | None, str | None]:
     """The characteristic's (name, unit): from the setup, else from an obvious value-column header."""
     from workbench.core.data.units import characteristic
     return characteristic(analysis.settings, analysis.dataset.layout)
+
+
+def capability_sigma(analysis: Analysis) -> float:
+    """σ within for the capability indices: the chart's estimate, made unbiased for the textbook pooled
+    form (s̄ / c4(d + 1), d = Σ(nᵢ − 1) over the subgroups used, as for ``pooled``)."""
+    if analysis.sigma_method != "pooled-sbar" or not np.isfinite(analysis.sigma_within):
+        return analysis.sigma_within
+    n = analysis.n[~analysis.excluded_subgroups]
+    dof = int(np.sum(np.maximum(n - 1, 0)))
+    return analysis.sigma_within / K.c4(min(dof + 1, K.MAX_N)) if dof > 0 else float("nan")

@@ -16,11 +16,12 @@ VARIABLE_CHARTS = ("xbar-r", "xbar-s", "imr")
 ATTRIBUTE_CHARTS = ("p", "np", "c", "u")
 SMALL_SHIFT_CHARTS = ("ewma", "cusum")
 CHART_KINDS = VARIABLE_CHARTS + ATTRIBUTE_CHARTS + SMALL_SHIFT_CHARTS
-SIGMA_METHODS = ("auto", "rbar", "sbar", "pooled", "mrbar", "known")
+SIGMA_METHODS = ("auto", "rbar", "sbar", "pooled", "pooled-sbar", "mrbar", "known")
 SIGMA_METHOD_LABELS = {
     "rbar": "rbar/d2",
     "sbar": "sbar/c4",
     "pooled": "pooled/c4",
+    "pooled-sbar": "pooled s\u0304, A3(n\u1d62)",
     "mrbar": "mrbar/d2",
     "known": "known",
 }
@@ -277,7 +278,7 @@ class Settings:
     chart: str = "auto"
     """Chart kind (see CHART_KINDS) or ``auto`` (imr for individuals, xbar-r for n <= 10, else xbar-s)."""
     sigma: str = "auto"
-    """Sigma estimator: auto | rbar | sbar | pooled | mrbar | known."""
+    """Sigma estimator: auto | rbar | sbar | pooled | pooled-sbar | mrbar | known."""
     rules: str | None = None
     """Rule set for the location chart: a set name or a comma list of rule ids; None: the default
     for the chart kind (western-electric for variables charts, limits-only for count charts)."""

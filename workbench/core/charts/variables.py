@@ -92,14 +92,15 @@ def estimate_sigma(method: str, stats: SubgroupStats, use: np.ndarray, known: fl
 
     Parameters
     ----------
-    method : {"rbar", "sbar", "pooled", "known"}
+    method : {"rbar", "sbar", "pooled", "pooled-sbar", "known"}
     stats : per-subgroup statistics
     use : boolean mask of subgroups that enter the estimate
     known : the standard value, for ``method="known"``
 
     References
     ----------
-    Montgomery, *Introduction to SQC*, ch. 6 (R̄/d2, S̄/c4); ASTM E2587 (pooled SD, c4(d+1)).
+    Montgomery, *Introduction to SQC*, ch. 6 (R̄/d2, S̄/c4; for variable sample size the pooled
+    s̄ = √(Σ(nᵢ−1)sᵢ²/(Σnᵢ − m)) with A3(nᵢ), B3(nᵢ), B4(nᵢ): ``pooled-sbar``); ASTM E2587 (pooled SD, c4(d+1)).
     For unequal sizes R̄/d2 and S̄/c4 average Rᵢ/d2(nᵢ) and sᵢ/c4(nᵢ).
     """
     if method == "known":
@@ -118,10 +119,11 @@ def estimate_sigma(method: str, stats: SubgroupStats, use: np.ndarray, known: fl
         return float(np.mean(stats.range[sel] / K.table(n, K.d2)))
     if method == "sbar":
         return float(np.mean(stats.sd[sel] / K.table(n, K.c4)))
-    if method == "pooled":
+    if method in ("pooled", "pooled-sbar"):
         dof = int(np.sum(n - 1))
         sp = float(np.sqrt(np.sum((n - 1) * stats.sd[sel] ** 2) / dof))
-        return sp / K.c4(min(dof + 1, K.MAX_N))
+        # pooled-sbar: the textbook s̄ itself (the caller divides by c4(nᵢ) per subgroup)
+        return sp if method == "pooled-sbar" else sp / K.c4(min(dof + 1, K.MAX_N))
     raise WorkbenchError(f"sigma method {method!r} does not apply to subgrouped data")
 
 
