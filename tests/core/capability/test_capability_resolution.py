@@ -79,33 +79,37 @@ def test_binned_test_pools_sparse_cells_and_counts_df():
 
 
 def _normal_rounded(step, n=750, seed=21):
-    x = np.random.default_rng(seed).normal(500.0, 0.3, n)
+    x = np.random.default_rng(seed).normal(500.0, 1.0, n)      # σ = 1, so the step is δ/σ
     return x, np.round(x / step) * step
 
 
-def test_rounding_to_a_third_of_sigma_keeps_the_normal_method_and_the_verdict():
-    raw, x = _normal_rounded(0.1)                     # δ = 0.1 = σ/3
-    spec = Spec(lsl=498.8, usl=501.2, method="auto")  # Ppk about 1.33
-    cap_raw, cap = assess(raw, 0.3, "rbar", spec), assess(x, 0.3, "rbar", spec)
+SPEC = Spec(lsl=496.0, usl=504.0, method="auto")                # Ppk about 1.33
+
+
+def test_rounding_to_three_tenths_of_sigma_keeps_the_normal_method_and_the_verdict():
+    raw, x = _normal_rounded(0.3)
+    cap_raw, cap = assess(raw, 1.0, "rbar", SPEC), assess(x, 1.0, "rbar", SPEC)
     assert cap.method == "normal" and cap.headline is not None
-    assert "No capability verdict" not in cap.verdict
+    assert "No capability verdict" not in cap.verdict and cap.meets_required is not None
     assert cap.ppk == pytest.approx(cap_raw.ppk, rel=0.02)
     # its expected value under rounding: σ² + δ²/12 from the interval fit (Sheppard) [from memory]
     r = cap.resolution
-    assert r.rounded and r.step == pytest.approx(0.1) and not r.coarse
-    sd_expected = math.sqrt(cap.normality.interval_sd ** 2 + 0.1 ** 2 / 12)
+    assert r.rounded and r.step == pytest.approx(0.3) and r.step_over_sigma == pytest.approx(0.3, rel=0.1)
+    assert not r.coarse
+    sd_expected = math.sqrt(cap.normality.interval_sd ** 2 + 0.3 ** 2 / 12)
     assert cap.sigma_overall == pytest.approx(sd_expected, rel=0.01)
+    assert cap.ppk == pytest.approx(min(cap.mean - 496.0, 504.0 - cap.mean) / (3 * sd_expected), rel=0.02)
     # the Anderson-Darling test on the rounded readings rejects, as rounding alone makes it do
-    assert cap.normality.ad_p < 0.05 and cap.normality.passed
+    assert cap.normality.ad_p < 0.05 and cap.normality.passed and cap.normality.test == "binned chi-square"
     assert not any("coarse" in w.lower() for w in cap.warnings)
 
 
 def test_rounding_to_one_sigma_warns_of_coarse_resolution():
-    _, x = _normal_rounded(0.3)                       # δ = σ: about 6 steps across 6σ
-    cap = assess(x, 0.3, "rbar", Spec(lsl=498.8, usl=501.2, method="auto"))
+    _, x = _normal_rounded(1.0)                       # about 6 steps across 6σ
+    cap = assess(x, 1.0, "rbar", SPEC)
     assert cap.resolution.coarse and cap.resolution.steps_in_spread < 10   # [common practice] about 10
     w = next(w for w in cap.warnings if "coarse" in w.lower())
-    assert "δ²/12" in w or "\u03b4\u00b2/12" in w
+    assert "\u03b4\u00b2/12" in w and "low" in w                          # and what it does to the indices
 
 
 def test_tolerance_rule_of_thumb():
