@@ -16,6 +16,7 @@ from workbench.core.capability.picture import (BEYOND, OVERALL, POINT, WITHIN, p
                                                spec_strip)
 from workbench.core.capability.report import capability_text
 from workbench.core.capability.statements import statements
+from workbench.core.capability.words import num
 from workbench.core.model import Spec
 from workbench.core.text import fmt
 
@@ -75,9 +76,9 @@ def test_statements_lead_with_the_verdict_and_keep_every_figure():
     assert says[0] == ("verdict", f"Verdict: {CAP.verdict}")
     text = " ".join(t for _, t in says)
     for v in (CAP.cp, CAP.cpl, CAP.cpu, CAP.cpk, CAP.pp, CAP.ppl, CAP.ppu, CAP.ppk, CAP.cpm, CAP.k):
-        assert f"{v:.2f}" in text
+        assert num(v) in text
     for ci in (CAP.cp_ci, CAP.cpk_ci, CAP.pp_ci, CAP.ppk_ci, CAP.cpm_ci):   # each bounded index with its bound
-        assert f"{ci[0]:.2f} \u2013 {ci[1]:.2f}" in text
+        assert f"{num(ci[0])} \u2013 {num(ci[1])}" in text
     fallout = [t for k, t in says if k == "fallout"]
     assert [t.split(" (")[0] for t in fallout[:2]] == ["Below the LSL", "Above the USL"]   # one sentence a side
     assert "6 mm" in text and "bore" in text
