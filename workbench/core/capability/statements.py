@@ -145,10 +145,10 @@ def statements(cap: Capability, unit: str | None = None, name: str | None = None
     Kinds: verdict, spec, index, fallout, model, normality, fit, resolution, departure, practice,
     warning, note.
     """
-    out = [("verdict", f"Verdict: {cap.verdict}"), ("spec", spec_statement(cap, unit, name))]
+    out = [("verdict", f"Verdict: {cap.verdict}"), ("spec", spec_statement(cap, unit, name)),
+           ("model", f"Method: {cap.method} \u2014 {cap.method_reason}.")]
     out += [("index", s) for s in index_statements(cap, unit)]
     out += [("fallout", s) for s in fallout_statements(cap, unit)]
-    out.append(("model", f"Method: {cap.method} \u2014 {cap.method_reason}."))
     if cap.normality is not None:
         out.append(("normality", f"Normality: {cap.normality.verdict} (A² p-value: {cap.normality.ad_p_method}.)"))
     for kind, s in (("fit", fit_statement(cap)), ("resolution", resolution_statement(cap, unit)),

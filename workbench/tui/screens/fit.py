@@ -165,7 +165,8 @@ class FitScreen(Screen):
             if cap is not None and preview and preview != cap.spec.method:  # looking only: nothing recorded
                 from workbench.core.analysis import open_signals
                 from workbench.core.capability.assess import assess
-                cap = assess(a.readings(), a.sigma_within, a.sigma_method, replace(cap.spec, method=preview),
+                from workbench.core.analysis import capability_sigma
+                cap = assess(a.readings(), capability_sigma(a), a.sigma_method, replace(cap.spec, method=preview),
                              open_signals=len(open_signals(a, states)))
             if cap is None:
                 raise ValueError("no specification is set (press s on the bench to give LSL / USL)")
