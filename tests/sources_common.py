@@ -14,7 +14,7 @@ PG_PASSWORD = "Fill-Head-7#q"
 DEMO_SPEC = Settings(spec=Spec(lsl=497.0, usl=503.0))
 """The demo's stated specification (demo_data/README.md: 497.0–503.0 mL)."""
 
-_SKIP = {"source", "notices", "layout"}
+_SKIP = {"source", "notices", "layout", "characteristic"}  # the name comes from the container (a header or a column)
 
 
 def report_of(dataset, settings: Settings | None = None) -> dict:

@@ -88,16 +88,18 @@ async def test_the_bench_and_the_fit_view_show_the_reports_numbers(in_tmp, opene
         await pilot.press("f")
         await settle(pilot)
         assert isinstance(app.screen, FitScreen)
-        text = widget_text(app.screen.query_one("#fit-text"))
+        text = " ".join(widget_text(app.screen.query_one("#fit-text")).split())  # wrapped lines joined
         cap = rep["capability"]
-        assert re.search(rf"\bn = {cap['n']}\b", text)
+        assert re.search(rf"\b{cap['n']} readings\b", text), text
         assert f"Method: {cap['method']}" in text
-        sig = re.search(rf"σ within ({NUMBER}).*?σ overall ({NUMBER})", text, re.S)
-        assert sig and (sig.group(1), sig.group(2)) == (num(cap["sigma_within"]), num(cap["sigma_overall"]))
+        within = re.search(rf"Within \(σ ({NUMBER})", text)
+        assert within and within.group(1) == num(cap["sigma_within"]), (within, cap["sigma_within"])
+        overall = re.search(rf"σ of the readings ({NUMBER})", text)
+        assert overall and overall.group(1) == num(cap["sigma_overall"]), (overall, cap["sigma_overall"])
         shown_indices = 0
         for key, value in cap["indices"].items():
-            label = {"k": "k"}.get(key, key[0].upper() + key[1:])
-            m = re.search(rf"(?m)(?:^|\s){re.escape(label)}\s+({NUMBER}|n/a)(?=\s|$)", text)
+            label = {"k": "centring k"}.get(key, key[0].upper() + key[1:])
+            m = re.search(rf"(?<![\w-]){re.escape(label)} ({NUMBER}|n/a)(?=[\s,.;]|$)", text)
             assert m, (label, text)
             if value is None:
                 assert m.group(1) == "n/a", (label, m.group(1))
@@ -105,12 +107,13 @@ async def test_the_bench_and_the_fit_view_show_the_reports_numbers(in_tmp, opene
                 assert m.group(1) == num(value), (label, m.group(1), value)
                 shown_indices += 1
         assert shown_indices >= 4  # Pp, Ppl, Ppu, Ppk at least (the demo's percentile method)
-        for row, key in (("expected, overall", "overall"), ("observed", "observed")):
-            m = re.search(rf"{row}\s+({NUMBER})\s+({NUMBER})\s+({NUMBER})", text)
-            assert m, (row, text)
-            want = cap["ppm"][key]
-            for shown, k in zip(m.groups(), ("below_lsl", "above_usl", "total")):
-                assert agrees(shown, want[k]), (row, k, shown, want[k])
+        # fallout: one sentence per side, observed ppm in brackets, expected overall "… ppm from the … model"
+        for side, key in (("Below the LSL", "below_lsl"), ("Above the USL", "above_usl")):
+            m = re.search(rf"{side} \([^)]*\): \d+ of \d+ readings observed \(({NUMBER}) ppm\); expected "
+                          rf"(?:{NUMBER}|n/a) ppm within and ({NUMBER}) ppm", text)
+            assert m, (side, text)
+            assert agrees(m.group(1), cap["ppm"]["observed"][key]), (side, m.group(1))
+            assert agrees(m.group(2), cap["ppm"]["overall"][key]), (side, m.group(2))
         await pilot.press("q")
 
 
