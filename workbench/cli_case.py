@@ -199,6 +199,9 @@ def cmd_causes(args: argparse.Namespace) -> int:
 def cmd_show(args: argparse.Namespace) -> int:
     from workbench.core.case.review import case_report_text
     case = _open(args, readonly=True)
+    if getattr(args, "head", False):  # just the hash to keep as an anchor (verify --expect-head)
+        print(case.events[-1].hash if case.events else "")
+        return 0
     analysis = case.analyse(case.load_dataset()) if case.data_status.usable else None
     sys.stdout.write(case_report_text(case, analysis))
     return 0
@@ -278,7 +281,9 @@ def register(subparsers: Any) -> None:
     p = action("causes", cmd_causes, "show or edit the case's list of cause categories")
     p.add_argument("--add", action="append", metavar="NAME", help="add a category (repeatable)")
     p.add_argument("--remove", action="append", metavar="NAME", help="remove a category (repeatable)")
-    action("show", cmd_show, "print the case's state and trail")
+    p = action("show", cmd_show, "print the case's state and trail")
+    p.add_argument("--head", action="store_true", help="print only the trail's head hash (the anchor to keep for "
+                   "verify --expect-head)")
     p = action("sign", cmd_sign, "sign off the trail's head with your SSH key (ssh-keygen -Y sign)")
     p.add_argument("--key", metavar="FILE", help="SSH private key, or public key whose private half is in the agent "
                    "(default: $WORKBENCH_SIGNING_KEY, else ~/.ssh/id_ed25519, id_ecdsa, id_rsa)")

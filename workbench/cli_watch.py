@@ -126,18 +126,29 @@ def cmd_watch(args: argparse.Namespace) -> int:
             printer.status({"event": "stopped", "status": status, "message": str(exc)})
             raise
         a = watch.analysis
-        printer.note(f"watching {watch.follower.path}: {a.dataset.m} subgroups, Phase II from position "
-                     f"{watch.frozen.subgroups}" + ("" if args.once else "; Ctrl-C stops"),
-                     {"event": "start", "case": str(case.path), "data": watch.follower.path, "subgroups": a.dataset.m,
-                      "phase2_start": watch.frozen.subgroups, "seen": watch.seen})
-        j = watch.catch_up()
-        found = printer.judgement(j)
-        _record(watch, j, printer)
-        if args.once:
-            return 1 if found else 0
-        return _follow(watch, printer, args.interval)
+        stop = threading.Event()  # Ctrl-C / SIGTERM stop the watch cleanly from the moment it says it started
+        handlers = {} if args.once else {sig: signal.signal(sig, lambda *_: stop.set())
+                                         for sig in (signal.SIGINT, signal.SIGTERM)}
+        try:
+            return _watch(args, watch, printer, a, case, stop)
+        finally:
+            for sig, h in handlers.items():
+                signal.signal(sig, h)
     finally:
         case.close()
+
+
+def _watch(args: argparse.Namespace, watch: Any, printer: "Printer", a: Any, case: Any, stop: threading.Event) -> int:
+    printer.note(f"watching {watch.follower.path}: {a.dataset.m} subgroups, Phase II from position "
+                 f"{watch.frozen.subgroups}" + ("" if args.once else "; Ctrl-C stops"),
+                 {"event": "start", "case": str(case.path), "data": watch.follower.path, "subgroups": a.dataset.m,
+                  "phase2_start": watch.frozen.subgroups, "seen": watch.seen})
+    j = watch.catch_up()
+    found = printer.judgement(j)
+    _record(watch, j, printer)
+    if args.once:
+        return 1 if found else 0
+    return _follow(watch, printer, args.interval, stop)
 
 
 def _record(watch: Any, j: Any, printer: Printer) -> None:
@@ -147,28 +158,21 @@ def _record(watch: Any, j: Any, printer: Printer) -> None:
         printer.note(f"the case is read-only ({watch.case.readonly_reason}): what was judged is not recorded")
 
 
-def _follow(watch: Any, printer: Printer, interval: float) -> int:
-    stop = threading.Event()
-    handlers = {}
-    for sig in (signal.SIGINT, signal.SIGTERM):
-        handlers[sig] = signal.signal(sig, lambda *_: stop.set())
-    try:
-        while not stop.is_set():
-            try:
-                j = watch.poll()
-            except WorkbenchError as exc:
-                printer.status({"event": "stopped", "status": "error", "message": str(exc)})
-                raise
-            printer.judgement(j)
-            _record(watch, j, printer)
-            if not j.ok:
-                printer.status({"event": "stopped", "status": j.status, "message": j.message})
-                raise WorkbenchError(j.message)
-            if not (j.update and j.update.more):
-                stop.wait(interval)
-    finally:
-        for sig, h in handlers.items():
-            signal.signal(sig, h)
+def _follow(watch: Any, printer: Printer, interval: float, stop: threading.Event) -> int:
+    """Poll until ``stop`` is set (by Ctrl-C or SIGTERM, whose handlers the caller installed)."""
+    while not stop.is_set():
+        try:
+            j = watch.poll()
+        except WorkbenchError as exc:
+            printer.status({"event": "stopped", "status": "error", "message": str(exc)})
+            raise
+        printer.judgement(j)
+        _record(watch, j, printer)
+        if not j.ok:
+            printer.status({"event": "stopped", "status": j.status, "message": j.message})
+            raise WorkbenchError(j.message)
+        if not (j.update and j.update.more):
+            stop.wait(interval)
     printer.note("watch stopped", {"event": "stopped", "status": "stopped", "message": "watch stopped"})
     return 0
 
