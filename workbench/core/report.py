@@ -58,6 +58,8 @@ def signal_json(a: Analysis, s, states: dict | None = None) -> dict[str, Any]:
     out = {"key": s.key, "chart": s.chart, "rule": s.rule, "description": s.description, "first": s.first,
            "last": s.last, "points": list(s.points), "fired": list(s.fired),
            "subgroups": [str(labels[p]) for p in s.points]}
+    from workbench.core import signal_shapes
+    signal_shapes.record(a, s, out)
     if states is not None:
         _state_json(out, states.get(s.key))
     if a.phase2_start is not None:
@@ -80,10 +82,12 @@ def _state_words(st: Any) -> str:
 
 def signals_json(a: Analysis, states: dict | None = None) -> list[dict[str, Any]]:
     """``signal_json`` of every signal, built from the signal table's arrays (the same dicts, faster)."""
+    from workbench.core import signal_shapes
     records = getattr(a.signals, "records", None)
     if records is None:
         return [signal_json(a, s, states) for s in a.signals]
     out = records()
+    signal_shapes.records(a, out)
     start = a.phase2_start
     for d in out:
         if states is not None:
@@ -114,6 +118,7 @@ def report_json(a: Analysis, states: dict | None = None, with_values: bool = Fal
         "charts": [chart_json(c, with_values) for c in a.charts],
         "flags": {c.name: {rid: pos.tolist() for rid, pos in c.flags.items()} for c in a.charts},
         "signals": signals_json(a, states),
+        "signal_guidance": _guidance(),
         "excluded": [{"subgroup": e.subgroup, "stream": e.stream, "position": ds.index_of(e.subgroup)}
                      for e in a.exclusions],
         "phase2_start": a.phase2_start,
@@ -142,6 +147,11 @@ def report_json(a: Analysis, states: dict | None = None, with_values: bool = Fal
         from workbench.core.capability.report import capability_json
         out["capability"] = capability_json(cap)
     return out
+
+
+def _guidance() -> dict[str, Any]:
+    from workbench.core.signal_shapes import guidance
+    return guidance()
 
 
 def dumps(obj: Any) -> str:
@@ -205,14 +215,21 @@ def report_text(a: Analysis, states: dict | None = None, width: int = 100) -> st
         L.append(f"warning   {_p(w)}")
     L.append("")
     L.append(f"signals   {len(a.signals)}")
-    for s in a.signals[:MAX_TEXT_SIGNALS]:
+    for i, s in enumerate(a.signals[:MAX_TEXT_SIGNALS]):
         st = ""
         if states is not None:
             st = f"  [{_state_words(states.get(s.key))}]"
         span = ds.labels[s.first] if s.first == s.last else f"{ds.labels[s.first]} … {ds.labels[s.last]}"
         L.append(f"  {s.chart:<5} {s.rule:<14} {_p(span)}  — {s.description}{st}")
+        L.extend(_shape_lines(a, i))
     if len(a.signals) > MAX_TEXT_SIGNALS:
         L.append(f"  … {len(a.signals) - MAX_TEXT_SIGNALS} more (use --format json for all)")
+    if a.signals:
+        from workbench.core.signal_shapes import CAUTION
+        from workbench.core.charts.shapes import SOURCE
+        import textwrap
+        L += textwrap.wrap(f"{CAUTION} Cause families: {SOURCE}.", width=max(width, 40),
+                           initial_indent="          ", subsequent_indent="          ")
     if a.exclusions:
         L.append("")
         L.append(f"excluded  {len(a.exclusions)}: " + ", ".join(_p(e.key) for e in a.exclusions[:30])
@@ -233,6 +250,17 @@ def report_text(a: Analysis, states: dict | None = None, width: int = 100) -> st
         L.append(capability_text(cap, width=width, readings=a.readings(), name=_p(name) if name else None,
                                  unit=_p(unit) if unit else None))
     return "\n".join(L) + "\n"
+
+
+def _shape_lines(a: Analysis, i: int) -> list[str]:
+    """The shape, the change point and the cause categories to look at first, under a signal's line."""
+    from workbench.core.signal_shapes import summary
+    shape, began, cats = summary(a, i, glue=True)
+    text = shape + (f"; {began}" if began else "") + (f"; look first at: {cats}" if cats else "")
+    import textwrap
+    return [line.replace("\u00a0", " ") for line in
+            textwrap.wrap(text, width=100, initial_indent="        ", subsequent_indent="          ",
+                          break_long_words=False, break_on_hyphens=False)]
 
 
 def _md_escape(text: str) -> str:
@@ -289,11 +317,17 @@ def report_markdown(a: Analysis, states: dict | None = None) -> str:
         L += ["", "## Warnings", ""] + [f"- {esc(w)}" for w in a.warnings]
     L += ["", f"## Signals ({len(a.signals)})", ""]
     if a.signals:
-        L += ["| chart | rule | subgroups | state | description |", "|---|---|---|---|---|"]
-        for s in a.signals:
+        from workbench.core.signal_shapes import CAUTION, summary
+        from workbench.core.charts.shapes import SOURCE
+        L += ["| chart | rule | subgroups | state | description | shape | where it began | look first at |",
+              "|---|---|---|---|---|---|---|---|"]
+        for i, s in enumerate(a.signals):
             state = _state_words((states or {}).get(s.key))
             span = ds.labels[s.first] if s.first == s.last else f"{ds.labels[s.first]} … {ds.labels[s.last]}"
-            L.append(f"| {s.chart} | {s.rule} | {esc(span)} | {state} | {s.description} |")
+            shape, began, cats = summary(a, i)
+            L.append(f"| {s.chart} | {s.rule} | {esc(span)} | {state} | {s.description} | {shape} | "
+                     f"{esc(began) or '—'} | {cats or '—'} |")
+        L += ["", esc(CAUTION) + " Cause families: " + esc(SOURCE) + "."]
     else:
         L.append("No signals.")
     cmp_ = comparison_of(a)

@@ -92,6 +92,10 @@ class SignalTable(Sequence):
         """The per-(chart, rule) groups the table was built from."""
         return tuple(self._groups)
 
+    def order(self) -> tuple[np.ndarray, np.ndarray]:
+        """(group, index within the group) of each signal, in table order."""
+        return self._gid, self._local
+
     def __len__(self) -> int:
         return int(self._gid.size)
 
