@@ -94,3 +94,21 @@ def test_normal_distribution_function_of_the_quadrature_equals_scipy():
     x = np.linspace(-9.5, 9.5, 401)
     assert np.allclose(ndtr(x), special.ndtr(x), rtol=1e-13, atol=0)
     assert np.allclose(log_ndtr(x), special.log_ndtr(x), rtol=1e-12, atol=1e-15)
+
+
+@pytest.mark.parametrize("points", [2, 5, 200, 400])
+def test_gauss_legendre_rule_matches_numpy_and_integrates_polynomials_exactly(points):
+    """The quadrature rule behind d2 and d3 (Newton's method, no linear algebra) against
+    ``numpy.polynomial.legendre.leggauss`` (reference library) and against the exact integrals
+    ∫₋₁¹ x^(2k) dx = 2/(2k+1), which an n-point Gauss rule reproduces for 2k ≤ 2n − 1 (calculus; the
+    defining property of Gauss-Legendre quadrature).  Kills: a wrong starting guess that converges to a
+    repeated node, a dropped factor 2 in the weights, nodes in the opposite order to the weights."""
+    from workbench.core.charts.constants import _rule
+    t, w = _rule(points)
+    t_ref, w_ref = np.polynomial.legendre.leggauss(points)
+    assert np.max(np.abs(t - t_ref)) < 1e-14
+    assert np.max(np.abs(w - w_ref) / w_ref) < 1e-8  # numpy's own weights carry ~1e-10 relative error at 400
+    for k in range(0, points):
+        exact = 2.0 / (2 * k + 1)
+        assert abs(float(np.dot(w, t ** (2 * k))) - exact) <= 1e-12 * exact
+        assert abs(float(np.dot(w, t ** (2 * k + 1)))) < 1e-13  # odd powers integrate to 0
