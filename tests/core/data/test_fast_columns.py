@@ -130,11 +130,20 @@ def test_iso_times_check_every_cell(cells_text, ok):
 
 
 def _load_plain(path, monkeypatch):
-    """The reference: subgroups found by factorizing the key text, repeats found by hashing the text."""
-    from workbench.core.data import reader
+    """The reference: subgroups found by factorizing the key text of every row, repeats found by hashing
+    the text (no shortcut through parsed times, nor through "one fixed-width form, one text per time")."""
+    import dataclasses
+    from workbench.core.data import reader, sniff
+    as_times = sniff.as_times
+
+    def plain_times(table, column):
+        t = as_times(table, column)
+        return None if t is None else dataclasses.replace(t, one_form=False)
     with monkeypatch.context() as m:
-        m.setattr(reader._Builder, "factorize_keys", lambda self, keys: pd.factorize(keys))
+        m.setattr(reader._Builder, "factorize_keys",
+                  lambda self, col: pd.factorize(self.order(self.texts(col, "subgroup key"))))
         m.setattr(cells, "_adjacent_repeat", lambda text, values: False)
+        m.setattr(sniff, "as_times", plain_times)
         return load(path)
 
 

@@ -60,6 +60,8 @@ class Times:
     """Boolean per row: a non-empty cell that is not a time."""
     empty: np.ndarray
     """Boolean per row: the cell was empty."""
+    one_form: bool = False
+    """Every filled cell has one fixed-width ISO form (the fast parse), so equal times mean equal texts."""
 
 
 def _cached(fn):
@@ -76,7 +78,20 @@ def _cached(fn):
 def as_text(table: Table, column: str) -> np.ndarray:
     """The column as a numpy array of str ("" for empty): stripped, numbers without a
     needless ``.0``, workbook dates in ISO form."""
+    return _text_of(table.frame[column])
+
+
+def text_at(table: Table, column: str, rows: np.ndarray) -> np.ndarray:
+    """``as_text(table, column)[rows]``, converting only those rows for a text column (a long file's
+    time key: the first row of each subgroup, instead of a str array of every row)."""
+    key = ("as_text", column)
     s = table.frame[column]
+    if key in table._cache or not (isinstance(s.dtype, pd.StringDtype) or s.dtype == object):
+        return as_text(table, column)[rows]
+    return _text_of(s.iloc[np.asarray(rows)].reset_index(drop=True))
+
+
+def _text_of(s: pd.Series) -> np.ndarray:
     if pd.api.types.is_datetime64_any_dtype(s):
         return _format_times(s)
     if pd.api.types.is_bool_dtype(s):
@@ -214,7 +229,7 @@ def as_times(table: Table, column: str) -> Times | None:
         fast = arrow.iso_times(s, head.tolist()) if iso and FAST else None
         if fast is not None:
             nat = np.isnat(fast)
-            return Times(fast, np.zeros(len(fast), bool), nat)
+            return Times(fast, np.zeros(len(fast), bool), nat, one_form=True)
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
             t = pd.to_datetime(s, errors="coerce", format="ISO8601" if iso else None)
@@ -246,8 +261,11 @@ def repeats(table: Table, column: str, times: Times | None = None) -> bool:
             v = s.to_numpy()
         if v is not None and (len(v) < 2 or bool((v[1:] > v[:-1]).all())):
             table._cache[key] = False
-        elif v is not None and bool((v[1:] >= v[:-1]).all()) and _adjacent_repeat(as_text(table, column), v):
-            table._cache[key] = True  # ordered values: a repeat shows next to its twin (found without hashing)
+        elif v is not None and bool((v[1:] >= v[:-1]).all()) and (
+                times.one_form if times is not None and times.one_form else _adjacent_repeat(as_text(table, column), v)):
+            # ordered values: a repeat shows next to its twin (found without hashing); with one text per
+            # time (one fixed-width ISO form) equal neighbouring times are equal texts
+            table._cache[key] = True
         else:
             table._cache[key] = not pd.Series(as_text(table, column)).is_unique
     return table._cache[key]

@@ -375,6 +375,7 @@ class _Builder:
         self.first_bad: str | None = None
         self.perm: np.ndarray | None = None
         self.times: np.ndarray | None = None
+        self.times_one_form = False
 
     def fail(self, i: int, col: str, what: str) -> WorkbenchError:
         return WorkbenchError(f"{self.t.where(i, col)}: {what}")
@@ -425,6 +426,7 @@ class _Builder:
             self.perm = np.argsort(v, kind="stable")
             self.notices.append(f"rows were not in time order; sorted by {col}")
         self.times = v
+        self.times_one_form = t.one_form
 
     def order(self, a: np.ndarray) -> np.ndarray:
         return a if self.perm is None else a[self.perm]
@@ -517,33 +519,38 @@ class _Builder:
                                                   f"sample size {_fmt(s[i])}"))
         return c, s
 
-    def factorize_keys(self, keys: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """``pandas.factorize`` of the subgroup keys (codes in order of first appearance).
+    def factorize_keys(self, col: str) -> tuple[np.ndarray, np.ndarray]:
+        """``pandas.factorize`` of the subgroup keys in time order (codes in order of first appearance).
 
         When the key is the time column its parsed times are factorized instead (integers hash far
-        faster than text), and kept only when every key's text equals its group's first text.
+        faster than text), and kept only when every key's text equals its group's first text — which
+        holds without comparing, and without making the text of every row, when every cell had one
+        fixed-width ISO form (one text per time).
         """
         lay = self.lay
-        if self.times is not None and lay.subgroup == lay.time and len(keys):
+        if self.times is not None and col == lay.time and len(self.times):
             codes, _ = pd.factorize(self.order(self.times).view(np.int64))
             seen = np.maximum.accumulate(codes)
             first = np.flatnonzero(np.r_[True, codes[1:] > seen[:-1]])
+            if self.times_one_form:
+                rows = first if self.perm is None else self.perm[first]
+                return codes, sniff.text_at(self.t, col, rows)
+            keys = self.order(self.texts(col, "subgroup key"))
             labels = keys[first]
             if np.array_equal(labels[codes], keys):
                 return codes, labels
-        return pd.factorize(keys)
+        return pd.factorize(self.order(self.texts(col, "subgroup key")))
 
     def grouped(self) -> dict:
         lay = self.lay
-        keys = self.order(self.texts(lay.subgroup, "subgroup key"))
         names = self.order(self.texts(lay.stream, "stream name"))
         if lay.count:
             c, s = self.attribute()
             cols = {"counts": c, "sizes": s}
         else:
             cols = {"values": self.nums(lay.value)}
-        rows = np.arange(len(keys)) if self.perm is None else self.perm
-        sg, labels = self.factorize_keys(keys)
+        rows = np.arange(len(names)) if self.perm is None else self.perm
+        sg, labels = self.factorize_keys(lay.subgroup)
         st, streams = pd.factorize(names)
         m, k = len(labels), len(streams)
         flat = sg.astype(np.int64) * k + st
@@ -552,7 +559,7 @@ class _Builder:
             i = int(np.argmax(dup))
             j = int(np.flatnonzero(flat == flat[i])[0])
             raise self.fail(int(rows[i]), lay.value or lay.count,
-                            f"second reading of stream {str(names[i])!r} in subgroup {str(keys[i])!r} "
+                            f"second reading of stream {str(names[i])!r} in subgroup {str(labels[sg[i]])!r} "
                             f"(first at row {int(self.t.lines[rows[j]])})")
         parts: dict = {}
         for name, v in cols.items():

@@ -40,7 +40,7 @@ import numpy as np
 import pandas as pd
 
 from workbench.core.data.cells import (  # re-exported: the cell conversions used to live here
-    MISSING_MARKERS, Numbers, Times, as_numbers, as_text, as_times, column_kind, int_text, repeats,
+    MISSING_MARKERS, Numbers, Times, as_numbers, as_text, as_times, column_kind, int_text, repeats, text_at,
 )
 from workbench.core.model import WorkbenchError
 
