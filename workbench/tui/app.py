@@ -72,7 +72,7 @@ class WorkbenchApp(Watching, Flows, App[int]):
         self.push_screen(LoadingScreen(self.request.path.name))
         self._open(self.request)
 
-    @work(thread=True, exclusive=True, group="open")
+    @work(thread=True, exclusive=True, group="open", description="open")
     def _open(self, req: OpenRequest) -> None:
         progress = lambda what, f: self.post_message(OpenProgress(what, f))  # noqa: E731
         try:
@@ -181,7 +181,7 @@ class WorkbenchApp(Watching, Flows, App[int]):
         if self.session is not None and self.snapshot is not None and self.snapshot.readonly and not self.busy:
             self._take_lock()
 
-    @work(thread=True, exclusive=True, group="lock")
+    @work(thread=True, exclusive=True, group="lock", description="lock")
     def _take_lock(self) -> None:
         try:
             taken = self.session.take_lock()

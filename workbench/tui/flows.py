@@ -34,7 +34,7 @@ class Flows:
         self.show_busy(doing)
         self._act(fn)
 
-    @work(thread=True, group="write")
+    @work(thread=True, group="write", description="write")
     def _act(self, fn: Callable[[Session], Change]) -> None:
         from workbench.tui import follow
         session = self.session

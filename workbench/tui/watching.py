@@ -47,7 +47,7 @@ class Watching:
         self._looking = True
         self._watch_start()
 
-    @work(thread=True, exclusive=True, group="watch")
+    @work(thread=True, exclusive=True, group="watch", description="watch")
     def _watch_start(self) -> None:
         try:
             look = follow.start(self.session)
@@ -63,7 +63,7 @@ class Watching:
         self._looking = True
         self._watch_poll()
 
-    @work(thread=True, exclusive=True, group="watch")
+    @work(thread=True, exclusive=True, group="watch", description="watch")
     def _watch_poll(self) -> None:
         try:
             look = follow.poll(self.session)

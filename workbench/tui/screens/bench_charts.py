@@ -54,7 +54,7 @@ class BenchCharts:
         self.token += 1
         self._build(self.token, snap, win, sizes, self.selected_range())
 
-    @work(thread=True, exclusive=True, group="charts")
+    @work(thread=True, exclusive=True, group="charts", description="charts")
     def _build(self, token: int, snap: Snapshot, win: Window, sizes: list[tuple[int, int]],
                selected: tuple[int, int] | None = None) -> None:
         a = snap.analysis

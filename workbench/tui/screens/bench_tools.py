@@ -47,7 +47,7 @@ class BenchTools:
         self._show_rows()
         self._update_side(True)
 
-    @work(thread=True, exclusive=True, group="drivers")
+    @work(thread=True, exclusive=True, group="drivers", description="drivers")
     def _find_drivers(self, snap: Snapshot) -> None:
         drivers = drivers_for(snap.analysis, [r.anchor for r in snap.marks.rows])
         self.post_message(Computed("drivers", id(snap), drivers))

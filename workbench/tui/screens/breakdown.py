@@ -107,7 +107,7 @@ class BreakdownScreen(Screen):
         self.query_one("#bd-head", Static).update(self._head())
         self._breakdown(self.token, self.snap, self.position)
 
-    @work(thread=True, exclusive=True, group="breakdown")
+    @work(thread=True, exclusive=True, group="breakdown", description="breakdown")
     def _breakdown(self, token: int, snap: Snapshot, p: int) -> None:
         from workbench.core.streams import breakdown
         try:
@@ -121,7 +121,7 @@ class BreakdownScreen(Screen):
             return
         self.post_message(Computed("breakdown", token, result))
 
-    @work(thread=True, exclusive=True, group="compare")
+    @work(thread=True, exclusive=True, group="compare", description="compare")
     def compare(self, snap: Snapshot) -> None:
         self.post_message(Computed("comparison", 0, comparison_text(snap.analysis)))
 
@@ -132,7 +132,7 @@ class BreakdownScreen(Screen):
         row = self.query_one(DataTable).cursor_row
         self._plot(self.token, self.snap, self.position, row, w.size.width, w.size.height)
 
-    @work(thread=True, exclusive=True, group="stream-plot")
+    @work(thread=True, exclusive=True, group="stream-plot", description="stream-plot")
     def _plot(self, token: int, snap: Snapshot, p: int, row: int, width: int, height: int) -> None:
         try:
             picture = neighbourhood_text(snap.dataset, p, row, width, height)

@@ -150,7 +150,7 @@ class FitScreen(Screen):
         self._assess(self.token, self.snap, max(pics.size.width - 5, 40), max(pics.size.height - 12, 6),
                      self.preview)
 
-    @work(thread=True, exclusive=True, group="fit")
+    @work(thread=True, exclusive=True, group="fit", description="fit")
     def _assess(self, token: int, snap: Snapshot, width: int, plot_height: int,
                 preview: str | None = None) -> None:
         from workbench.core.analysis import capability_for

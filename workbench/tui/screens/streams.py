@@ -67,7 +67,7 @@ class StreamScreen(Screen):
         self.token += 1
         self._compute(self.token, snap)
 
-    @work(thread=True, exclusive=True, group="streams")
+    @work(thread=True, exclusive=True, group="streams", description="streams")
     def _compute(self, token: int, snap: Snapshot) -> None:
         from workbench.core.stream_charts import stream_charts
         try:
@@ -82,7 +82,7 @@ class StreamScreen(Screen):
         sizes = [(w.size.width, w.size.height) for w in self._widgets()]
         self._build(self.token, self.charts, sizes, self.snap.dataset.labels, self.full, self.picked)
 
-    @work(thread=True, exclusive=True, group="stream-pictures")
+    @work(thread=True, exclusive=True, group="stream-pictures", description="stream-pictures")
     def _build(self, token: int, charts: list, sizes: list, labels, full: bool, picked: int) -> None:
         from workbench.tui.plotting import build, chart_data, label_width
         pics = []

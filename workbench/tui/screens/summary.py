@@ -54,7 +54,7 @@ class SummaryScreen(Screen):
         self.token += 1
         self._compute(self.token, snap)
 
-    @work(thread=True, exclusive=True, group="summary")
+    @work(thread=True, exclusive=True, group="summary", description="summary")
     def _compute(self, token: int, snap: Snapshot) -> None:
         try:
             rows = summary_rows(snap)

@@ -103,7 +103,7 @@ class TrailScreen(Screen):
         self.query_one("#trail-integrity", Static).update(Text("integrity: checking…", style="italic"))
         self._verify()
 
-    @work(thread=True, exclusive=True, group="verify")
+    @work(thread=True, exclusive=True, group="verify", description="verify")
     def _verify(self) -> None:
         try:
             result = self.app.session.verify()
