@@ -15,6 +15,7 @@ import pandas as pd
 import pytest
 from hypothesis import HealthCheck, given, settings, strategies as st
 
+from workbench.core.model import LayoutRequest
 from workbench.core.data import cells, sniff
 from workbench.core.data.reader import load
 
@@ -61,11 +62,15 @@ def test_fast_conversions_equal_pandas_read_csv(case, tmp_path, monkeypatch):
     raw, encoding, partial, n = case
     path = tmp_path / "awkward.csv"
     path.write_bytes(raw)
+    # the streams named: random readings can put one stream 100 pooled SDs from the others, which stops
+    # detection (a check of its own, tests/core/data); here only the conversions are compared
+    header = raw.decode(encoding).lstrip("\ufeff").splitlines()[0].replace('"', "").split(",")
+    request = LayoutRequest(streams=tuple(c for c in header if c.startswith("S")))
     monkeypatch.setattr(cells, "FAST", True)
-    fast = load(path)
+    fast = load(path, request)
     table = sniff.read_table(path)
     monkeypatch.setattr(cells, "FAST", False)
-    general = load(path)
+    general = load(path, request)
 
     # the pandas reading of the same bytes (the partial line left out, as the workbench does)
     complete = raw[: raw.rstrip(b"\r\n").rfind(b"\n") + 1] if partial else raw

@@ -49,6 +49,17 @@ def _offsets(arr) -> tuple[np.ndarray, np.ndarray]:
 
 def text(s: pd.Series) -> np.ndarray | None:
     """The column as a numpy str array ("" for a missing cell) when it holds only ASCII text."""
+    got = text_and_edges(s)
+    return None if got is None else got[0]
+
+
+_BLANKS = np.zeros(128, bool)
+_BLANKS[[9, 13, 32]] = True  # the ASCII blanks cells._strip looks for at a cell's edges
+
+
+def text_and_edges(s: pd.Series) -> tuple[np.ndarray, bool] | None:
+    """``text(s)`` and whether some cell starts or ends with a blank (read off the bytes, so a caller
+    that strips can skip looking at the str array)."""
     arr = arrow_strings(s)
     if arr is None:
         return None
@@ -59,9 +70,12 @@ def text(s: pd.Series) -> np.ndarray | None:
     if data.size and int(data.max()) >= 128:
         return None
     lens = np.diff(off)
+    filled = np.flatnonzero(lens > 0)
+    heads, tails = off[:-1][filled] - start, off[1:][filled] - start - 1
+    blank_edge = bool(_BLANKS[data[heads]].any() or _BLANKS[data[tails]].any())
     width = int(lens.max()) if n else 0
     if width == 0:
-        return np.full(n, "", dtype="<U1")
+        return np.full(n, "", dtype="<U1"), False
     if int(lens.min()) == width:
         chars = data.reshape(n, width).astype(np.uint32)
     else:
@@ -72,7 +86,7 @@ def text(s: pd.Series) -> np.ndarray | None:
     out = chars.view(f"<U{width}").reshape(n)
     if arr.null_count:
         out = np.where(np.asarray(arr.is_valid()), out, "")
-    return out
+    return out, blank_edge
 
 
 def iso_times(s: pd.Series, head: list[str]) -> np.ndarray | None:

@@ -106,9 +106,10 @@ def _text_of(s: pd.Series) -> np.ndarray:
         else:
             out = s.astype(str).to_numpy(dtype=str)
         return np.where(np.isnan(v), "", out)
-    fast = arrow.text(s) if FAST else None
+    fast = arrow.text_and_edges(s) if FAST else None
     if fast is not None:
-        return _strip(fast)
+        out, blank_edge = fast
+        return np.strings.strip(out) if blank_edge else out
     arr = s.to_numpy(dtype=object)
     out = _str_array(arr)
     nan = np.flatnonzero(out == "nan")  # a NaN cell, or the text "nan"
