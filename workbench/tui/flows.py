@@ -21,6 +21,12 @@ from workbench.tui.session import Change, Session
 from workbench.tui.view import STATE_WORDS, safe
 
 
+def _suggestions(row) -> tuple[str, ...]:
+    """The row's shape and the cause families often looked at first, for a dialog (never pre-selected)."""
+    from workbench.core.charts.shapes import suggestion_lines
+    return tuple(suggestion_lines(row.shape, row.role, row.began)) if row.shape else ()
+
+
 class Flows:
     """Mixed into the App: ``self.snapshot``, ``self.session``, ``self.busy`` live there."""
 
@@ -57,6 +63,9 @@ class Flows:
         label = str(ds.labels[position])
         row = snap.marks.row_at(position)
         key = words = None
+        suggestions: tuple[str, ...] = ()
+        if row is not None:
+            suggestions = _suggestions(snap.marks.rows[row])
         if row is not None and snap.marks.rows[row].state == "open":
             key, words = snap.marks.rows[row].key, snap.marks.rows[row].words
         done = set()
@@ -74,7 +83,7 @@ class Flows:
                 self.act(lambda s: s.exclude(choice.target, choice.reason, choice.cause, key))
 
         self.push_screen(ExcludeDialog(label, streams, snap.state.causes, stream, words, frozenset(done),
-                                       tuple(answers)), confirmed)
+                                       tuple(answers), suggestions), confirmed)
 
     def restore_flow(self, position: int, stream: str | None = None) -> None:
         snap = self.snapshot
@@ -113,7 +122,12 @@ class Flows:
                    "open": ("Why reopen it? (optional)", False)}
         prompt, required = prompts[state]
         title = f"Mark {safe(key)} {STATE_WORDS.get(state, state)}"
-        self.push_screen(ReasonDialog(title, prompt, "Mark", required=required, needed="The cause is required"),
+        suggestions: tuple[str, ...] = ()
+        if state == "explained":
+            row = next((r for r in self.snapshot.marks.rows if r.key == key), None)
+            suggestions = _suggestions(row) if row is not None else ()
+        self.push_screen(ReasonDialog(title, prompt, "Mark", required=required, needed="The cause is required",
+                                      suggestions=suggestions),
                          lambda r: self.act(lambda s: s.mark(key, state, r)) if r is not None else None)
 
     # -- a range of subgroups, several signals, retractions

@@ -41,6 +41,10 @@ LOWER_LINE = (70, 185, 190)
 """The lower side of a two-sided chart (the CUSUM's −C⁻), drawn below the centre line."""
 LOWER_GLYPH = "·"
 """A point of the lower side that is in control (flagged ones take their class's glyph)."""
+CHANGE = (255, 210, 90)
+CHANGE_GLYPH = "┊"
+"""Where a sustained shift most likely began (a signal's change point): a dotted column under the points,
+unlike the solid line of Phase II, so it reads without colour too."""
 LEGEND = (("open signal", OPEN), ("explained / no cause", REVIEWED), ("excluded", EXCLUDED))
 
 
@@ -59,16 +63,19 @@ class ChartData:
     """A second series drawn against the LCL (the CUSUM's −C⁻), or None."""
     lower_codes: np.ndarray | None = None
     """Point classes of ``lower`` (flagged only where that side signalled)."""
+    changes: np.ndarray | None = None
+    """Sorted positions where a sustained shift most likely began (drawn as CHANGE_GLYPH columns)."""
 
 
 MEASURED = ("xbar", "r", "s", "i", "mr", "ewma", "cusum")
 """Charts whose values are in the readings' unit (count charts plot proportions and counts)."""
 
 
-def chart_data(c, codes: np.ndarray, unit: str | None = None) -> ChartData:
+def chart_data(c, codes: np.ndarray, unit: str | None = None, changes: np.ndarray | None = None) -> ChartData:
     """The series of a ChartResult to draw; a CUSUM gets −C⁻ as its lower series, and each side
     shows the flags of the points where that side is beyond H.  ``unit`` (the characteristic's, e.g.
-    "fill volume, mL") is added to the title of charts in the readings' unit."""
+    "fill volume, mL") is added to the title of charts in the readings' unit; ``changes`` are the chart's
+    change points (see ChartData)."""
     what = f" · {unit}" if unit and c.name in MEASURED else ""
     if c.name == "cusum" and "cusum-" in c.extra:
         cp, cm = np.asarray(c.values, float), np.asarray(c.extra["cusum-"], float)
@@ -78,8 +85,9 @@ def chart_data(c, codes: np.ndarray, unit: str | None = None) -> ChartData:
         upper = np.where(flagged & down & ~up, NORMAL, codes).astype(codes.dtype)
         lower = np.where(flagged & down, codes, NORMAL).astype(codes.dtype)
         return ChartData(c.name, f"{c.name} · {c.title}{what} · C⁺ above, −C⁻ below", cp, c.center, c.lcl, c.ucl,
-                         upper, -cm, lower)
-    return ChartData(c.name, f"{c.name} · {c.title}{what}", c.values, c.center, c.lcl, c.ucl, codes)
+                         upper, -cm, lower, changes)
+    return ChartData(c.name, f"{c.name} · {c.title}{what}", c.values, c.center, c.lcl, c.ucl, codes,
+                     changes=changes)
 
 
 @dataclass(frozen=True, eq=False)
@@ -205,6 +213,11 @@ def build(data: ChartData, win: Window, width: int, height: int, lwidth: int, la
     low = None if low is None else _clip(low, lo, hi)
     plt.xlim(0, cols - 1)
     plt.ylim(lo, hi)
+    phase_col = column_of(phase2, win, cols) if phase2 is not None and win.start < phase2 < win.stop else None
+    for col in change_columns(data.changes, win, cols):  # first: under the limits, points and line
+        if col == phase_col:  # Phase II's line is drawn there (the list still says where the shift began)
+            continue
+        plt.scatter([col] * height, np.linspace(lo, hi, height).tolist(), marker=CHANGE_GLYPH, color=CHANGE)
     for key, colour in (("ucl", LIMIT), ("lcl", LIMIT), ("center", CENTRE)):
         lim = limits[key]
         if isinstance(lim, float):
@@ -243,6 +256,14 @@ def build(data: ChartData, win: Window, width: int, height: int, lwidth: int, la
     return _picture(text, data, win, asked, token, caption)
 
 
+def change_columns(changes: np.ndarray | None, win: Window, cols: int) -> list[int]:
+    """Canvas columns of the change points inside the window (one per column)."""
+    if changes is None or changes.size == 0:
+        return []
+    a, b = np.searchsorted(changes, [win.start, win.stop])
+    return sorted({column_of(int(p), win, cols) for p in changes[a:b].tolist()})
+
+
 def _picture(text: Text, data: ChartData, win: Window, asked: tuple[int, int], token: int,
              caption: str) -> Picture:
     """The picture of a built chart; ``asked`` is the widget size it was drawn for."""
@@ -277,15 +298,19 @@ def to_strips(text: Text, width: int) -> tuple[Strip, ...]:
     return tuple(Strip(line, width) for line in lines)
 
 
-def legend_text() -> Text:
-    """One line naming the glyphs (drawn under the charts)."""
+def legend_text(width: int | None = None) -> Text:
+    """One line naming the glyphs (drawn under the charts).  With ``width``, items that do not fit are
+    left out whole from the end (the point states and the cursor come first; help names every glyph)."""
+    items = [(GLYPH[cls] + " ", f"bold {rgb(COLOUR[cls])}", words) for words, cls in LEGEND]
+    items.append((" ", "reverse", " cursor column"))  # drawn as the cursor is: a highlighted column
+    items.append((CHANGE_GLYPH + " ", f"bold {rgb(CHANGE)}", "shift began"))
+    if width is not None:
+        while len(items) > 4 and sum(len(g) + len(w) for g, _, w in items) + 2 * (len(items) - 1) > width:
+            items.pop()
     t = Text(no_wrap=True, overflow="ellipsis")
-    for i, (words, cls) in enumerate(LEGEND):
+    for i, (glyph, style, words) in enumerate(items):
         if i:
             t.append("  ")
-        t.append(GLYPH[cls] + " ", style=f"bold {rgb(COLOUR[cls])}")
+        t.append(glyph, style=style)
         t.append(words)
-    t.append("  ")
-    t.append(" ", style="reverse")  # drawn as the cursor is: a highlighted column
-    t.append(" cursor column")
     return t

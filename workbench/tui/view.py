@@ -55,6 +55,12 @@ class SignalRow:
     """The state in words (``explained 1 of 4 firing points — 3 new`` for a run that grew); empty: ``state``."""
     short: str = ""
     """The state for the list's column (``open · 3 new``); empty: ``state`` in words."""
+    began: str = ""
+    """Where a sustained shift most likely began, short (``began 2026-03-03 08:00``); empty: no change point."""
+    shape: str = ""
+    """The shape id (``shift``, ``single``, …; :mod:`workbench.core.charts.shapes`); empty when unknown."""
+    role: str = "location"
+    """The role of the signal's chart (location or spread): the cause families differ."""
 
 
 @dataclass(frozen=True, eq=False)
@@ -83,6 +89,8 @@ class Marks:
     no_cause_count: int
     excluded_count: int
     """Exclusions in force (subgroups and readings)."""
+    changes: dict[str, np.ndarray] | None = None
+    """Chart name -> sorted positions where a current signal's sustained shift most likely began."""
 
     def row_at(self, position: int) -> int | None:
         """The current row for ``position``: the first row (in list order) whose rule first fired there,
@@ -144,15 +152,26 @@ def marks_for(a: Analysis, state: Any) -> Marks:
     counts = {"open": 0, "explained": 0, "no-cause-found": 0, "excluded": 0}
     reviewed: list[Signal] = []
     opened: list[Signal] = []
-    for s in a.signals:
+    from workbench.core.charts.changepoint import signal_shapes
+    shapes = signal_shapes(a)
+    shape_ids, spread, change = shapes.shape.tolist(), shapes.role.tolist(), shapes.index.tolist()
+    from workbench.core.charts.shapes import SHAPES
+    ids = list(SHAPES)
+    began: dict[str, set[int]] = {}
+    for i, s in enumerate(a.signals):
         status = now.get(s.key)
         st = status.state if status is not None else "open"
         counts[st] = counts.get(st, 0) + 1
         anchor = s.fired[0] if s.fired else s.first
+        where = change[i]
+        if where >= 0:
+            began.setdefault(s.chart, set()).add(where)
         rows.append(SignalRow(s.key, s.chart, s.rule, s.description, s.first, s.last, anchor, _span(labels, s),
                               safe(labels[s.first]), s.last - s.first + 1, st,
                               status.words() if status is not None else "",
-                              status.short_words() if status is not None else ""))
+                              status.short_words() if status is not None else "",
+                              f"began {safe(labels[where])}" if where >= 0 else "", ids[shape_ids[i]],
+                              "spread" if spread[i] else "location"))
         (opened if st == "open" else reviewed).append(s)
     rows.sort(key=lambda r: (r.anchor, r.chart, r.rule))
     for s in reviewed:
@@ -192,7 +211,8 @@ def marks_for(a: Analysis, state: Any) -> Marks:
         lasts_max=np.maximum.accumulate(lasts[by_first]) if lasts.size else lasts,
         open_count=counts["open"], explained_count=counts["explained"],
         no_cause_count=counts["no-cause-found"],
-        excluded_count=len(state.exclusions) if state is not None else int(a.excluded_subgroups.sum()))
+        excluded_count=len(state.exclusions) if state is not None else int(a.excluded_subgroups.sum()),
+        changes={k: np.array(sorted(v), dtype=np.int64) for k, v in began.items()})
 
 
 # ---- limits in words ------------------------------------------------------------------------

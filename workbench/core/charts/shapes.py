@@ -121,10 +121,13 @@ def shape_of(rule: str, npoints: int, runs: int, small_shift: bool = False) -> s
     return {"trend": "drift", "alternating": "alternation", "hugging": "stratification"}.get(rule, "single")
 
 
-def suggestion_lines(shape_id: str, role: str = "location") -> list[str]:
-    """The shape and its cause families as lines for a dialog: the shape, then ``category — words``."""
+def suggestion_lines(shape_id: str, role: str = "location", began: str = "") -> list[str]:
+    """The shape (and, when known, where it began) and its cause families for a dialog, as two short
+    paragraphs: ``Shape: a sustained shift — began 08:00 (most likely).`` and ``Often looked at first
+    (suggestions; none is chosen): material — a new lot or supplier; people — …``."""
     shape = SHAPES.get(shape_id)
     if shape is None:
         return []
-    return [f"Shape: {shape.words}. Often looked at first (suggestions, none chosen):"] + \
-        [f"  {cat} — {words}" for cat, words in families(shape_id, role)]
+    head = f"Shape: {shape.words}" + (f" — {began} (most likely)" if began else "") + "."
+    return [head, "Often looked at first (suggestions; none is chosen): "
+            + "; ".join(f"{cat} — {words}" for cat, words in families(shape_id, role)) + "."]

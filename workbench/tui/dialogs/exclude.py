@@ -7,7 +7,7 @@ from rich.text import Text
 from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding
-from textual.containers import Horizontal, Vertical
+from textual.containers import Horizontal, VerticalScroll
 from textual.screen import ModalScreen
 from textual.widgets import Button, Input, Label, RadioButton, RadioSet, Select, Static
 
@@ -32,16 +32,19 @@ class ExcludeDialog(ModalScreen[ExcludeChoice | None]):
 
     def __init__(self, label: str, streams: tuple[str, ...], causes: tuple[str, ...],
                  stream: str | None = None, signal_words: str | None = None,
-                 excluded_streams: frozenset[str] = frozenset(), answers: tuple[str, ...] = ()) -> None:
+                 excluded_streams: frozenset[str] = frozenset(), answers: tuple[str, ...] = (),
+                 suggestions: tuple[str, ...] = ()) -> None:
         super().__init__(classes="dialog-screen")
         self.label, self.streams, self.causes = label, streams, causes
         self.stream, self.signal_words = stream, signal_words
         self.choosable = tuple(s for s in streams if s not in excluded_streams)
         self.answers = answers
         """Every signal the exclusion answers, in words (shown before it is confirmed)."""
+        self.suggestions = suggestions
+        """The signal's shape and the cause families often looked at first (shown, never chosen)."""
 
     def compose(self) -> ComposeResult:
-        with Vertical(classes="dialog"):
+        with VerticalScroll(classes="dialog"):  # scrolls when the terminal is short (80×24)
             yield Static(Text(f"Exclude from the limits — subgroup {safe(self.label)}", style="bold"),
                          classes="dialog-title")
             if self.signal_words:
@@ -56,6 +59,8 @@ class ExcludeDialog(ModalScreen[ExcludeChoice | None]):
             yield Input(placeholder="e.g. nozzle 4 blocked, fixed at 10:40", id="reason")
             yield Static("Cause category", markup=False)
             yield Select([(Text(safe(c)), c) for c in self.causes], prompt="(none)", id="cause")
+            if self.suggestions:
+                yield Static(Text("\n".join(self.suggestions)), id="suggestions", classes="dialog-prompt")
             if self.choosable and len(self.streams) > 1:
                 with RadioSet(id="scope"):
                     yield RadioButton("the whole subgroup", value=self.stream is None, id="scope-subgroup")

@@ -16,17 +16,22 @@ class ReasonDialog(ModalScreen[str | None]):
     BINDINGS = [Binding("escape,q", "cancel", "Cancel", id="dialog-cancel")]
 
     def __init__(self, title: str, prompt: str, confirm: str = "Confirm", required: bool = True,
-                 placeholder: str = "", value: str = "", needed: str = "A reason is required") -> None:
+                 placeholder: str = "", value: str = "", needed: str = "A reason is required",
+                 suggestions: tuple[str, ...] = ()) -> None:
         super().__init__(classes="dialog-screen")
         self.needed = needed
         self.title_text, self.prompt, self.confirm = title, prompt, confirm
         self.required, self.placeholder, self.value = required, placeholder, value
+        self.suggestions = suggestions
+        """Lines shown under the input: e.g. a signal's shape and the cause families often looked at first."""
 
     def compose(self) -> ComposeResult:
         with Vertical(classes="dialog"):
             yield Static(Text(self.title_text, style="bold"), classes="dialog-title")
             yield Static(Text(self.prompt), classes="dialog-prompt")
             yield Input(value=self.value, placeholder=self.placeholder, id="reason")
+            if self.suggestions:
+                yield Static(Text("\n".join(self.suggestions)), id="suggestions", classes="dialog-prompt")
             yield Label("", id="error", classes="dialog-error", markup=False)
             with Horizontal(classes="dialog-buttons"):
                 yield Button(self.confirm, variant="primary", id="confirm")

@@ -135,6 +135,8 @@ class BenchScreen(BenchTools, BenchCharts, Screen):
         self.call_after_refresh(self._after_resize)
 
     def _after_resize(self) -> None:
+        legend = self.query_one("#legend", Static)
+        legend.update(legend_text(legend.size.width or None))
         self.request_charts()
         self._update_cursor_views()
 

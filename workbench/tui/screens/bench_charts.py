@@ -62,7 +62,8 @@ class BenchCharts:
         from workbench.core.text import printable
         name, unit = characteristic_of(a)
         what = printable(", ".join(t for t in (name, unit) if t)) or None
-        charts = [chart_data(c, snap.marks.codes[c.name], what) for c in a.charts[:2]]
+        changes = snap.marks.changes or {}
+        charts = [chart_data(c, snap.marks.codes[c.name], what, changes.get(c.name)) for c in a.charts[:2]]
         cols = max(sizes[0][0] - 14, 10)
         lw = label_width(charts, win, cols)
         m = snap.dataset.m

@@ -42,6 +42,9 @@ def help_text() -> Text:
                        (3, "point excluded from the limits"), (0, "point in control")):
         t.append(f"  {GLYPH[cls]}  ", style=f"bold {rgb(COLOUR[cls])}")
         t.append(words + "\n")
+    from workbench.tui.plotting import CHANGE, CHANGE_GLYPH
+    t.append(f"  {CHANGE_GLYPH}  ", style=f"bold {rgb(CHANGE)}")
+    t.append("where a sustained shift most likely began (a signal's change point; also in the signals list)\n")
     t.append("  the reversed column is the cursor; a vertical line marks the start of Phase II (frozen limits)\n")
     return t
 

@@ -89,10 +89,13 @@ class SignalList(ScrollView, can_focus=False):
         return False
 
     def line_parts(self, row: SignalRow, part: int, width: int = 44) -> list[tuple[str, Style | None]]:
-        """The segments of line ``part`` (0: what and where, 1: the rule in words) of one row.
+        """The segments of line ``part`` (0: what and where, 1: where a shift began and the rule in words) of
+        one row.
 
         A run longer than one subgroup reads ``+9 more points`` (``+9 more`` when the list is narrow)."""
-        if part == 1:
+        if part == 1:  # where the shift began comes first and whole, or not at all; the words may be cut
+            if row.began and 4 + len(row.began) <= width:
+                return [("    " + row.began, None), (" · " + row.words, DIM)]
             return [("    " + row.words, DIM)]
         cls = STATE_CLASS.get(row.state, OPEN)
         state = row.short or STATE_WORDS.get(row.state, row.state)
