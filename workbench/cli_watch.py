@@ -1,4 +1,4 @@
-"""``workbench watch CASE``: follow a case's growing data file and judge new rows (Phase II).
+"""``workbench watch CASE``: follow a case's growing data file or database table and judge new rows (Phase II).
 
 Without options the workbench opens with watching switched on.  ``--headless`` prints one
 line per new signal and keeps going until Ctrl-C or SIGTERM; ``--once`` judges what was
@@ -119,7 +119,7 @@ def cmd_watch(args: argparse.Namespace) -> int:
         for n in case.notices:
             printer.note(n)
         try:
-            watch = Watch.start(case)
+            watch = Watch.start(case, args.key)
         except WorkbenchError as exc:
             status = "shrunk" if "shrunk" in str(exc) else "rewritten" if "rewritten" in str(exc) or \
                 "changed" in str(exc) else "missing" if "no such file" in str(exc) else "error"
@@ -139,7 +139,9 @@ def cmd_watch(args: argparse.Namespace) -> int:
 
 
 def _watch(args: argparse.Namespace, watch: Any, printer: "Printer", a: Any, case: Any, stop: threading.Event) -> int:
-    printer.note(f"watching {watch.follower.path}: {a.dataset.m} subgroups, Phase II from position "
+    src = getattr(watch.follower, "source", None)
+    by = f" by key {src.key}" if src is not None else ""
+    printer.note(f"watching {watch.follower.path}{by}: {a.dataset.m} subgroups, Phase II from position "
                  f"{watch.frozen.subgroups}" + ("" if args.once else "; Ctrl-C stops"),
                  {"event": "start", "case": str(case.path), "data": watch.follower.path, "subgroups": a.dataset.m,
                   "phase2_start": watch.frozen.subgroups, "seen": watch.seen})
@@ -191,6 +193,7 @@ def _open_workbench(args: argparse.Namespace) -> int:
     from workbench.options import open_args
     targs = open_args([args.case] + (["--author", args.author] if args.author else []))
     targs.watch, targs.watch_interval, targs.bell = True, args.interval, not args.no_bell
+    targs.watch_key = args.key
     return run_app(targs)
 
 
@@ -209,6 +212,9 @@ def register(subparsers: Any) -> None:
                            "appeared, 0 when not")
     p.add_argument("--interval", type=_seconds, default=2.0, metavar="SECONDS",
                    help="seconds between looks at the file (default 2)")
+    p.add_argument("--key", metavar="COLUMN",
+                   help="a database source: the column that increases with every new row; the rows after the last "
+                        "key judged are read at each look (recorded in the case; default: the one it records)")
     p.add_argument("--format", choices=("text", "json"), default="text", help="text lines or JSON lines")
     p.add_argument("--each", "--verbose", dest="each", action="store_true",
                    help="also print one line per judged subgroup")

@@ -39,6 +39,8 @@ def add_data_options(p: argparse.ArgumentParser) -> None:
     d.add_argument("--table", metavar="NAME", help="the table to read")
     d.add_argument("--query", metavar="SQL", help="a SELECT statement to read instead of a table")
     d.add_argument("--order", metavar="A,B", help="columns a table is read in order of (default: its primary key)")
+    d.add_argument("--key", metavar="COLUMN", help="a column that increases with every new row: the rows are read "
+                   "in its order, and watching the case reads the rows after the last key judged")
     d.add_argument("--aggregate-in-database", action="store_true", default=None,
                    help="long data: compute each subgroup's n, mean, range and SD in the database with one GROUP BY "
                         "(automatic above 1,000,000 rows)")
@@ -49,13 +51,15 @@ def data_source(path: str, args: argparse.Namespace):
     from workbench.core.data.sql import is_url, source_from_url
     table, query = getattr(args, "table", None), getattr(args, "query", None)
     if not is_url(path):
-        if table or query or getattr(args, "aggregate_in_database", None):
-            raise WorkbenchError(f"--table, --query and --aggregate-in-database need a database URL (such as sqlite:///plant.db), not {path}")
+        if table or query or getattr(args, "aggregate_in_database", None) or getattr(args, "key", None):
+            raise WorkbenchError(f"--table, --query, --key and --aggregate-in-database need a database URL (such as "
+                                 f"sqlite:///plant.db), not {path}")
         return path
     order = tuple(c.strip() for c in (getattr(args, "order", None) or "").split(",") if c.strip())
     if order and query:
         raise WorkbenchError("--order applies to --table; put ORDER BY in the query instead")
-    return source_from_url(path, table, query, order, aggregate=bool(getattr(args, "aggregate_in_database", None)))
+    return source_from_url(path, table, query, order, key=getattr(args, "key", None) or None,
+                           aggregate=bool(getattr(args, "aggregate_in_database", None)))
 
 
 def add_setup_options(p: argparse.ArgumentParser) -> None:

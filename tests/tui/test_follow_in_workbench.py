@@ -132,3 +132,50 @@ async def test_the_key_stops_following_and_a_rewritten_file_stops_it(in_tmp, ope
         assert app.following is None
         assert any("shrunk" in str(n.message) for n in app._notifications)
         await pilot.press("q")
+
+
+async def test_watch_a_database_table_by_its_key(in_tmp, opened):
+    # A SQLite file made by the test: rows inserted between looks are read after the last id judged and
+    # judged against the frozen limits (a subgroup of readings 4 above a centre near 10 is far beyond
+    # the X-bar UCL: Montgomery, Introduction to SQC, ch. 6, a point beyond 3 sigma limits) [definition].
+    import sqlite3
+
+    import numpy as np
+
+    from workbench.cli import main
+    db = in_tmp / "plant.db"
+    con = sqlite3.connect(db)
+    con.execute("CREATE TABLE fill (id INTEGER, batch TEXT, head TEXT, ml REAL)")
+    rng, ids = np.random.default_rng(5), iter(range(1, 10_000))
+
+    def add(batches, shift=0.0):
+        for b in batches:
+            for h in ("H1", "H2", "H3"):
+                con.execute("INSERT INTO fill VALUES (?, ?, ?, ?)", (next(ids), f"B{b:03d}", h,
+                                                                     float(10 + shift + rng.normal(0, 0.3))))
+        con.commit()
+
+    add(range(1, 26))
+    case = str(in_tmp / "fill.case.json")
+    assert main(["case", "new", f"sqlite:///{db}", "--table", "fill", "--subgroup", "batch", "--stream", "head",
+                 "--value", "ml", "-o", case]) == 0
+    assert main(["case", "freeze", case, "--force", "--reason", "trial"]) == 0
+    app = WorkbenchApp(OpenRequest(Path(case)), hide_times=True, watch=True, watch_interval=3600, bell=False,
+                       watch_key="id")
+    async with opened(app, size=(80, 24)) as pilot:
+        assert app.following and "following sqlite:///plant.db table fill" in screen_text(app)
+        add([26, 27], shift=4.0)
+        app.poll_watch()
+        await settle(pilot)
+        snap = app.snapshot
+        assert snap.dataset.m == 27 and snap.analysis.phase2_start == 25
+        assert any(r.first == 25 and r.rule == "beyond-limits" for r in snap.marks.rows)  # B026, position 25
+        await pilot.press("w")  # stops
+        await settle(pilot)
+        assert not app.following
+        await pilot.press("w")  # starts again: the key recorded by the first look is used
+        await settle(pilot)
+        assert app.following
+    con.close()
+    seen = [e for e in Case.open(case, readonly=True).events if e.kind == "data-appended"]
+    assert seen[-1].payload["key"] == "id" and seen[-1].payload["last_key"] == 81

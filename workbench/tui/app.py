@@ -40,9 +40,12 @@ class WorkbenchApp(Watching, Flows, App[int]):
     BINDINGS = list(APP_BINDINGS)
 
     def __init__(self, request: OpenRequest, hide_times: bool = False, quiet_reuse: bool = False,
-                 watch: bool = False, watch_interval: float = 2.0, bell: bool = True) -> None:
+                 watch: bool = False, watch_interval: float = 2.0, bell: bool = True,
+                 watch_key: str | None = None) -> None:
         super().__init__()
         self.watch_on_open = watch
+        self.follow_key = watch_key
+        """A database source's increasing key column (``workbench watch CASE --key COLUMN``)."""
         """Follow the case's data file as soon as it is open (``workbench watch CASE``)."""
         self.follow_interval, self.follow_bell = float(watch_interval), bool(bell)
         self.request = request
@@ -295,7 +298,7 @@ def run_app(args: argparse.Namespace) -> int:
     """Run the workbench full screen; returns the exit status (2 when the file cannot be opened)."""
     app = WorkbenchApp(request_from_args(args), watch=bool(getattr(args, "watch", False)),
                        watch_interval=getattr(args, "watch_interval", None) or 2.0,
-                       bell=getattr(args, "bell", True))
+                       bell=getattr(args, "bell", True), watch_key=getattr(args, "watch_key", None))
     try:
         app.run()
     finally:

@@ -31,20 +31,26 @@ class Look:
     """The file followed."""
     started: bool = False
     """The first look, when following began."""
+    by: str = ""
+    """`` by key COLUMN`` for a database source (else empty)."""
 
 
-def start(session: Session) -> Look:
-    """Begin following the case's data file (the limits must be frozen) and judge what is new."""
+def start(session: Session, key: str | None = None) -> Look:
+    """Begin following the case's data file or database (the limits must be frozen) and judge what is new.
+
+    ``key``: a database source's increasing column, when the case does not record it yet."""
     from workbench.core.phase2.judge import Watch
     with session.lock:
         if session.watch is not None:
             raise WorkbenchError(f"already following {session.watch.follower.path}")
-        watch = Watch.start(session.case)
+        watch = Watch.start(session.case, key)
         j = watch.catch_up()
         session.watch = watch
         session.dataset, session.analysis = watch.dataset, watch.analysis
         recorded = watch.record(j) is not None
-        return Look(j, session.snapshot(), recorded, str(watch.follower.path), started=True)
+        src = getattr(watch.follower, "source", None)
+        by = f" by key {src.key}" if src is not None else ""
+        return Look(j, session.snapshot(), recorded, str(watch.follower.path), started=True, by=by)
 
 
 def poll(session: Session) -> Look:

@@ -23,6 +23,8 @@ class Watching:
     """Seconds between looks."""
     follow_bell: bool = True
     """Ring the terminal bell on a new signal."""
+    follow_key: str | None = None
+    """A database source's key column given on the command line (else the one the case records)."""
     following: str | None = None
     """The file followed (None: not following)."""
     _watch_timer = None
@@ -31,7 +33,9 @@ class Watching:
 
     def follow_label(self) -> str | None:
         """``following <file>`` for the status bar, or None."""
-        return f"following {safe(Path(self.following).name)}" if self.following else None
+        if not self.following:
+            return None
+        return f"following {safe(self.following if '://' in self.following else Path(self.following).name)}"
 
     def toggle_watch(self) -> None:
         if self.following:
@@ -50,7 +54,7 @@ class Watching:
     @work(thread=True, exclusive=True, group="watch", description="watch")
     def _watch_start(self) -> None:
         try:
-            look = follow.start(self.session)
+            look = follow.start(self.session, self.follow_key)
         except Exception as exc:  # the reason in one line; nothing is followed
             self.post_message(WatchLooked(None, str(exc) or type(exc).__name__))
             return
@@ -100,8 +104,8 @@ class Watching:
         if look.started:
             self.following = look.path
             self._watch_timer = self.set_interval(self.follow_interval, self.poll_watch, name="watch")
-            self.notify(f"Following {safe(look.path)}: new subgroups are judged against the frozen limits. "
-                        f"{safe(j.message)}. Press w to stop.", title="Watch", markup=False, timeout=8)
+            self.notify(f"Following {safe(look.path)}{safe(look.by)}: new subgroups are judged against the frozen "
+                        f"limits. {safe(j.message)}. Press w to stop.", title="Watch", markup=False, timeout=8)
         if look.snapshot is not None:
             self._show_look(look)  # also when stopped while the look ran: it was recorded as seen
         if not self.following:

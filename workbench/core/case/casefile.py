@@ -8,6 +8,8 @@ their public names are re-exported here.
 """
 from __future__ import annotations
 
+import dataclasses
+
 import json
 import os
 import re
@@ -392,8 +394,9 @@ class Case:
             raise WorkbenchError(self.data_status.message)
         if not self.data_status.usable and not self.readonly:  # changed since the case was opened
             self.readonly_reason = self.data_status.message
-        if self.data.source is not None:
-            return load(self.data.source, self.data.request)
+        if self.data.source is not None:  # read in order of the key a watch recorded, as it judged them
+            from workbench.core.phase2.judge import recorded_key
+            return load(dataclasses.replace(self.data.source, key=recorded_key(self)), self.data.request)
         return load(str(self.data_status.path), self.data.request)
 
     def analyse(self, dataset: Dataset, state: CaseState | None = None) -> Analysis:

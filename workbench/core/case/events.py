@@ -389,6 +389,10 @@ class _Builder:
                     raise WorkbenchError(f"{where}: {name} went down from {self.seen[name]} to {v}")
                 new[name] = v
             new["sha256"] = _str(p.get("sha256"), where, "sha256", empty=False)
+            if "key" in p:
+                _str(p.get("key"), where, "key", empty=False)
+            if isinstance(p.get("last_key"), (dict, list)):
+                raise WorkbenchError(f"{where}: last_key must be a single value")
             self.seen = new
         if ev.limits_after is not None:
             if k == "created":
@@ -476,7 +480,7 @@ _PAYLOAD_KEYS = {
     "signal": ({"key", "state"}, {"note", "keys", "range", "fired"}),
     "freeze": ({"frozen"}, {"reason", "open_signals"}),
     "unfreeze": ({"reason"}, set()),
-    "data-appended": ({"subgroups", "rows", "size_bytes", "sha256"}, {"signals"}),
+    "data-appended": ({"subgroups", "rows", "size_bytes", "sha256"}, {"signals", "key", "last_key"}),
     "retract": ({"event", "hash", "reason"}, set()),
     "repair": ({"reason", "found"}, {"breaks", "bak"}),
     "sign-off": ({"head", "namespace", "signature"}, {"key"}),

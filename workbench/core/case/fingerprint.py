@@ -67,7 +67,7 @@ def check_data(ref: DataRef, case_path: Path, events: Iterable[Event] = ()) -> D
     judged in Phase II) must still be the file's first bytes: the file may only grow.
     """
     if getattr(ref, "source", None) is not None:  # a database: its rows read again
-        return _check_database(ref)
+        return _check_database(ref, list(events))
     path = Path(os.path.normpath(Path(case_path).parent / ref.path))
     shown = str(path)
     marks = judged_prefixes(ref, events)
@@ -116,10 +116,16 @@ def check_data(ref: DataRef, case_path: Path, events: Iterable[Event] = ()) -> D
                       "Phase II material")
 
 
-def _check_database(ref: DataRef) -> DataStatus:
-    """Read the table or query again and compare the fingerprint of its canonical rows."""
-    from workbench.core.data.reader import load
+def _check_database(ref: DataRef, events: list[Event]) -> DataStatus:
+    """Read the table or query again and compare the fingerprint of its canonical rows.
+
+    Rows read one by one (not aggregated in the database) are compared as a file's bytes are: the
+    rows of the creation and those each ``data-appended`` event judged must still be the first rows
+    in the order read (by the watch's key when there is one); rows after them are new."""
+    from workbench.core.data.reader import _wanted, load
     src = ref.source
+    if not src.aggregate:
+        return _check_rows(ref, events, _wanted)
     try:
         ds = load(src, ref.request)
     except WorkbenchError as exc:
@@ -130,3 +136,39 @@ def _check_database(ref: DataRef) -> DataStatus:
     return DataStatus("changed", Path(src.url), ds.size_bytes, event=1, message=
                       f"the rows of {src.shown} have changed since the case was created ({ds.rows} rows now, "
                       f"{ref.rows} then; the fingerprint of the canonical rows differs)")
+
+
+def _check_rows(ref: DataRef, events: list[Event], wanted) -> DataStatus:
+    import dataclasses
+    from workbench.core.data import sql
+    src = ref.source
+    key = src.key or next((ev.payload["key"] for ev in reversed(events) if ev.kind == "data-appended"
+                           and isinstance(ev.payload.get("key"), str)), None)
+    src = dataclasses.replace(src, key=key)
+    try:
+        names, rows, _notice = sql.read_rows(src, wanted(ref.request))
+    except WorkbenchError as exc:
+        return DataStatus("missing", Path(src.url), None, f"the data cannot be read: {exc}")
+    fp = sql.Fingerprint(names)
+    for mark in judged_prefixes(ref, events):
+        if mark.rows is None:
+            continue
+        if mark.rows > len(rows):
+            where = "the case was created" if mark.seq == 1 else f"event {mark.seq} judged them"
+            return DataStatus("changed", Path(src.url), None, event=mark.seq, message=
+                              f"the rows of {src.shown} have changed: {len(rows)} rows now, {mark.rows} when {where}")
+        fp.update(rows[fp.rows:mark.rows])
+        if fp.sha256 != mark.sha256:
+            what = "since the case was created" if mark.seq == 1 else f"since event {mark.seq} judged them"
+            order = f" in order of {key!r}" if key else ""
+            return DataStatus("changed", Path(src.url), None, event=mark.seq, message=
+                              f"the rows of {src.shown} have changed {what} (the fingerprint of the first {mark.rows} "
+                              f"rows{order} differs)")
+    fp.update(rows[fp.rows:])
+    if fp.rows == ref.rows:
+        return DataStatus("same", Path(src.url), fp.size,
+                          f"the rows of {src.shown} are unchanged ({fp.rows} rows, same fingerprint)")
+    grown = fp.rows - ref.rows
+    return DataStatus("appended", Path(src.url), fp.size,
+                      f"{src.shown} has {grown} row{'' if grown == 1 else 's'} more than when the case was created "
+                      f"(the first {ref.rows} unchanged); the new rows are Phase II material")

@@ -1,6 +1,8 @@
 """``workbench verify``: check a case file end to end without changing anything."""
 from __future__ import annotations
 
+import dataclasses
+
 import math
 import tempfile
 from dataclasses import dataclass
@@ -109,8 +111,13 @@ def _recompute_limits(doc: Document, status: DataStatus) -> list[str]:
 
     def dataset_for(nbytes: int) -> Dataset:
         if nbytes not in datasets:
-            if doc.data.source is not None and nbytes == status.size_bytes:  # a database: its rows read again
-                datasets[nbytes] = load(doc.data.source, doc.data.request)
+            if doc.data.source is not None and (nbytes == status.size_bytes or not doc.data.source.aggregate):
+                # a database: its rows read again (the first rows of that size, in the watch's key order)
+                from workbench.core.phase2.judge import recorded_key
+                from workbench.core.phase2.sqlfollow import load_rows_prefix
+                src = dataclasses.replace(doc.data.source, key=recorded_key(doc))
+                datasets[nbytes] = load(src, doc.data.request) if src.aggregate else \
+                    load_rows_prefix(src, doc.data.request, None if nbytes == status.size_bytes else nbytes)
             elif nbytes == status.size_bytes:
                 datasets[nbytes] = load(str(status.path), doc.data.request)
             elif nbytes > (status.size_bytes or 0):

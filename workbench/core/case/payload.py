@@ -188,7 +188,8 @@ def describe(ev: Event) -> str:
         return f"limits unfrozen: {q(p['reason'])}"
     if ev.kind == "data-appended":
         sig = p.get("signals") or []
-        return (f"new data judged: {p['subgroups']} subgroups, {p['rows']} rows, {p['size_bytes']} bytes"
+        upto = f" up to {q(p['key'])} = {q(str(p.get('last_key')))}" if isinstance(p.get("key"), str) else ""
+        return (f"new data judged: {p['subgroups']} subgroups, {p['rows']} rows, {p['size_bytes']} bytes{upto}"
                 + (f"; new signals {', '.join(q(k) for k in sig)}" if sig else "; no new signal"))
     return "case created"
 

@@ -99,6 +99,12 @@ def load(path, request: LayoutRequest = LayoutRequest()) -> Dataset:
                 ds = _Builder(table, summary, LayoutRequest(kind="summary", subgroup=summary.subgroup)).build()
                 return dataclasses.replace(ds, source=src, notices=ds.notices + (notice,))
     table = read_any(path, lambda names: _text_columns(names, request), _wanted(request))
+    ds = from_table(table, request)
+    return ds if isinstance(path, (str, os.PathLike)) else dataclasses.replace(ds, source=path)
+
+
+def from_table(table: Table, request: LayoutRequest = LayoutRequest()) -> Dataset:
+    """The dataset of a table already read (the characteristic picked, the layout detected)."""
     cols = list(table.frame.columns)
     r = request
     for name in (r.subgroup, r.stream, r.value, r.time, r.count, r.size, *r.streams):
@@ -120,7 +126,7 @@ def load(path, request: LayoutRequest = LayoutRequest()) -> Dataset:
                                  notices=ds.notices + (f"characteristic {request.characteristic} "
                                                        f"({found.names.index(request.characteristic) + 1} of "
                                                        f"{len(found.names)})",))
-    return ds if isinstance(path, (str, os.PathLike)) else dataclasses.replace(ds, source=path)
+    return ds
 
 
 def read_any(path, text_columns=lambda names: (), wanted=lambda names: None) -> Table:

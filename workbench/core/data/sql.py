@@ -203,10 +203,11 @@ def select_sql(engine, source: SqlSource, columns: list[str] | None = None) -> t
     cols = "*" if columns is None else ", ".join(quote(engine, c) for c in columns)
     if source.query is not None:
         inner = source.query.strip().rstrip(";")
-        if columns is None:
+        by = f" ORDER BY {quote(engine, source.key)}" if source.key else ""
+        if columns is None and not by:
             return inner, None
-        return f"SELECT {cols} FROM ({inner}) AS workbench_rows", None
-    order = list(source.order) or _primary_key(engine, source.table)
+        return f"SELECT {cols} FROM ({inner}) AS workbench_rows{by}", None
+    order = [source.key] if source.key else list(source.order) or _primary_key(engine, source.table)
     sql = f"SELECT {cols} FROM {quote(engine, source.table)}"
     if order:
         return sql + " ORDER BY " + ", ".join(quote(engine, c) for c in order), None
@@ -257,21 +258,42 @@ def canonical(value: Any) -> Any:
     return str(value)
 
 
+class Fingerprint:
+    """The fingerprint of canonical rows, fed a batch at a time (a prefix's digest can be taken on the way)."""
+
+    def __init__(self, names: list[str]) -> None:
+        self._h, self.size, self.rows = hashlib.sha256(), 0, 0
+        self._enc = json.JSONEncoder(ensure_ascii=False, separators=(",", ":"))
+        self._add([self._enc.encode(list(names))])
+
+    def _add(self, lines: list[str]) -> None:
+        if lines:
+            b = ("\n".join(lines) + "\n").encode("utf-8")
+            self._h.update(b)
+            self.size += len(b)
+
+    def update(self, rows: list[tuple]) -> "Fingerprint":
+        enc = self._enc.encode
+        self._add([enc([canonical(v) for v in r]) for r in rows])
+        self.rows += len(rows)
+        return self
+
+    @property
+    def sha256(self) -> str:
+        return self._h.hexdigest()
+
+
 def fingerprint(names: list[str], rows: list[tuple]) -> tuple[str, int]:
     """SHA-256 (hex) and length in bytes of the canonical rows (see the module docstring)."""
-    h, size = hashlib.sha256(), 0
-    enc = json.JSONEncoder(ensure_ascii=False, separators=(",", ":"))
-    for line in [enc.encode(names)] + [enc.encode([canonical(v) for v in r]) for r in rows]:
-        b = (line + "\n").encode("utf-8")
-        h.update(b)
-        size += len(b)
-    return h.hexdigest(), size
+    f = Fingerprint(names).update(rows)
+    return f.sha256, f.size
 
 
-def read_table(source: SqlSource, text_columns: Callable[[list[str]], Iterable[str]] = lambda names: (),
-               wanted: Callable[[list[str]], list[str] | None] = lambda names: None) -> RecordTable:
-    """Read the source's rows (only the ``wanted`` columns when it names some)."""
-    engine = engine_of(source)
+def read_rows(source: SqlSource, wanted: Callable[[list[str]], list[str] | None] = lambda names: None,
+              engine=None) -> tuple[list[str], list[tuple], str | None]:
+    """Column names, rows and an order notice of the source (only the ``wanted`` columns when it names some)."""
+    own = engine is None
+    engine = engine or engine_of(source)
     try:
         names = column_names(source, engine)
         cols = wanted(list(names))
@@ -279,7 +301,15 @@ def read_table(source: SqlSource, text_columns: Callable[[list[str]], Iterable[s
         sql, notice = select_sql(engine, source, cols)
         names, rows = run(source, sql, engine=engine)
     finally:
-        engine.dispose()
+        if own:
+            engine.dispose()
+    return names, rows, notice
+
+
+def read_table(source: SqlSource, text_columns: Callable[[list[str]], Iterable[str]] = lambda names: (),
+               wanted: Callable[[list[str]], list[str] | None] = lambda names: None) -> RecordTable:
+    """Read the source's rows (only the ``wanted`` columns when it names some)."""
+    names, rows, notice = read_rows(source, wanted)
     digest, size = fingerprint(names, rows)
     frame = to_frame(names, rows)
     notices = (notice,) if notice else ()

@@ -275,14 +275,38 @@ def last_seen(case: Any) -> Seen | None:
     return None
 
 
-def record_seen(case: Any, seen: Seen, signals: list[str] | tuple[str, ...] = ()) -> str | None:
-    """Record what was seen as a ``data-appended`` event in the trail.
+def record_seen(case: Any, seen: Seen, signals: list[str] | tuple[str, ...] = (),
+                extra: dict[str, Any] | None = None) -> str | None:
+    """Record what was seen as a ``data-appended`` event in the trail (``extra``: a database's key and
+    last key read).
 
     Returns "trail", or None when the case is read-only."""
     if case.readonly:
         return None
-    case.append_event(DATA_APPENDED, seen.payload(signals))
+    case.append_event(DATA_APPENDED, {**seen.payload(signals), **(extra or {})})
     return "trail"
+
+
+def recorded_key(case: Any) -> str | None:
+    """The key column a database source is followed by: the source's, else the last one a watch recorded."""
+    src = case.data.source
+    if src is not None and src.key:
+        return src.key
+    return next((ev.payload["key"] for ev in reversed(case.events)
+                 if ev.kind == DATA_APPENDED and isinstance(ev.payload.get("key"), str)), None)
+
+
+def watch_key(case: Any, given: str | None) -> str:
+    """The key to follow a database source by (``given`` must agree with the one recorded)."""
+    known = recorded_key(case)
+    if given and known and given != known:
+        raise WorkbenchError(f"{case.path}: the rows are followed by key {known!r} (recorded in the case), not "
+                             f"{given!r}")
+    key = given or known
+    if not key:
+        raise WorkbenchError(f"{case.path}: a database is watched by a column that increases with every new row: "
+                             "give --key COLUMN")
+    return key
 
 
 # ---- watching a case ------------------------------------------------------------------------
@@ -319,11 +343,16 @@ class Watch:
         """Subgroups judged so far (new subgroups start here)."""
 
     @classmethod
-    def start(cls, case: Any) -> "Watch":
-        """Load the case's data (up to the last complete line) with its frozen limits."""
+    def start(cls, case: Any, key: str | None = None) -> "Watch":
+        """Load the case's data (up to the last complete line) with its frozen limits.
+
+        A database source is followed by its increasing ``key`` column (given here, with the source,
+        or recorded by an earlier watch)."""
         frozen = case.state.frozen
         if frozen is None:
             raise WorkbenchError(not_frozen_message(case.path))
+        if case.data.source is not None:
+            return cls._start_sql(case, frozen, key)
         status = case.data_status
         if not status.usable:
             raise WorkbenchError(status.message)
@@ -335,6 +364,22 @@ class Watch:
         if got != want:
             raise WorkbenchError(f"{status.path}: its columns are now read as {got}, not as when the case was built "
                                  f"({want}); give the layout when creating the case")
+        analysis = case.analyse(follower.dataset)
+        return cls(case, follower, analysis, frozen, max(seen.subgroups if seen else 0, frozen.subgroups))
+
+    @classmethod
+    def _start_sql(cls, case: Any, frozen: FrozenLimits, key: str | None) -> "Watch":
+        from workbench.core.case.fingerprint import judged_prefixes
+        from workbench.core.phase2.sqlfollow import SqlFollower
+        src = dataclasses.replace(case.data.source, key=watch_key(case, key))
+        marks = [(j.rows, j.sha256, j.seq) for j in judged_prefixes(case.data, case.events) if j.rows is not None]
+        follower = SqlFollower.open(src, case.data.request, hold_from=frozen.subgroups, marks=marks)
+        got, want = follower.dataset.layout.as_dict(), case.data.layout.as_dict()
+        got.pop("detected", None), want.pop("detected", None)
+        if got != want:
+            raise WorkbenchError(f"{src.shown}: its columns are now read as {got}, not as when the case was built "
+                                 f"({want}); give the layout when creating the case")
+        seen = last_seen(case)
         analysis = case.analyse(follower.dataset)
         return cls(case, follower, analysis, frozen, max(seen.subgroups if seen else 0, frozen.subgroups))
 
@@ -367,8 +412,9 @@ class Watch:
         if not judgement.positions:
             return None
         f = self.follower
+        extra = f.seen_extra() if hasattr(f, "seen_extra") else {}
         return record_seen(self.case, Seen(self.analysis.dataset.m, f.dataset.rows, f.offset, f.sha256),
-                           [s.key for s in judgement.signals])
+                           [s.key for s in judgement.signals], extra)
 
     def reanalyse(self) -> Analysis:
         """Analyse again after the case's state changed (exclusions, setup); the limits must stay frozen."""
