@@ -123,7 +123,11 @@ def run_until_started(line: str, cwd: Path, env: dict[str, str], started: str) -
     """Run a command that keeps going until stopped; stop it with SIGTERM once ``started`` is on stderr."""
     proc = subprocess.Popen(argv(line), cwd=cwd, env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE,
                             text=True)
-    first = proc.stderr.readline()
+    first = ""
+    for _ in range(5):  # notices about the case (e.g. rows added since it was made) may come first
+        first += proc.stderr.readline()
+        if started in first:
+            break
     assert started in first, f"{line!r} did not start: {first!r}"
     proc.send_signal(signal.SIGTERM)
     out, err = proc.communicate(timeout=60)

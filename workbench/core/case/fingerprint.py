@@ -169,6 +169,11 @@ def _check_rows(ref: DataRef, events: list[Event], wanted) -> DataStatus:
         return DataStatus("same", Path(src.url), fp.size,
                           f"the rows of {src.shown} are unchanged ({fp.rows} rows, same fingerprint)")
     grown = fp.rows - ref.rows
+    judged = max((m.rows for m in judged_prefixes(ref, events) if m.rows is not None), default=ref.rows)
+    rest = fp.rows - judged
+    tail = (f"{judged - ref.rows} of them judged in Phase II and unchanged" if judged > ref.rows else "") + \
+        ("; " if judged > ref.rows and rest else "") + \
+        (f"{rest} new, Phase II material" if rest else "")
     return DataStatus("appended", Path(src.url), fp.size,
                       f"{src.shown} has {grown} row{'' if grown == 1 else 's'} more than when the case was created "
-                      f"(the first {ref.rows} unchanged); the new rows are Phase II material")
+                      f"(the first {ref.rows} unchanged): {tail}")
