@@ -44,8 +44,13 @@ class OverviewRow:
 
 
 def settings_for(settings: Settings, spec_row) -> Settings:
-    """The setup with the specification file's entry when no specification was given on the command line."""
-    if settings.spec is not None or spec_row is None:
+    """The setup with the specification file's entry when no specification was given on the command line
+    (and its unit when the setup names none)."""
+    if spec_row is None:
+        return settings
+    if settings.unit is None and spec_row.unit:
+        settings = dataclasses.replace(settings, unit=spec_row.unit)
+    if settings.spec is not None:
         return settings
     return dataclasses.replace(settings, spec=Spec(lsl=spec_row.lsl, usl=spec_row.usl, target=spec_row.target))
 

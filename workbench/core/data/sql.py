@@ -18,6 +18,15 @@ column names, then one JSON array per row in the order read (null; true/false; i
 digits; floats by ``repr``; decimals as written by the database; dates and times in ISO 8601;
 bytes in hex; text as is), each line ending in a newline.  ``size_bytes`` is the length of that
 text.  Re-reading and comparing it is what ``verify`` can do for a database.
+
+The per-subgroup rows of an aggregated source (``--aggregate-in-database``; millions of rows) are
+fingerprinted column by column instead (:func:`fingerprint_columns`, recorded in the case as
+``"fingerprint": "columns"``; cases made before keep the row form above and are checked with it):
+the column names as one JSON array and a newline, then for each column the JSON array
+``[name, kind, rows]`` and a newline followed by its values — ``float64``: IEEE 754 binary64,
+little-endian, an empty value as the quiet NaN ``0x7ff8000000000000``; ``int64``: two's complement
+little-endian; ``time``: nanoseconds since 1970-01-01 UTC as ``int64`` (an empty time as the
+smallest ``int64``); ``text``: each value as a JSON string (null when empty) followed by a newline.
 """
 from __future__ import annotations
 
@@ -62,6 +71,9 @@ class SqlSource:
     """An increasing column: new rows are those after the last key judged (watch)."""
     aggregate: bool = False
     """Per-subgroup statistics computed in the database (``--aggregate-in-database``)."""
+    fingerprint: str | None = None
+    """How the rows of an aggregated source are fingerprinted: ``columns`` (:func:`fingerprint_columns`, the
+    default for new cases) or ``rows`` (:func:`fingerprint`, cases made before it); None: not decided yet."""
     pushed: Any = field(default=None, repr=False, compare=False)
     """How an aggregated dataset was made (``pushdown.Pushed``); in memory only."""
     password: str | None = field(default=None, repr=False, compare=False)
@@ -98,21 +110,24 @@ class SqlSource:
             out["key"] = self.key
         if self.aggregate:
             out["aggregate"] = True
+        if self.fingerprint == "columns":
+            out["fingerprint"] = "columns"
         return out
 
     @classmethod
     def from_dict(cls, d: Any, where: str, base: str | None = None) -> "SqlSource":
         if not isinstance(d, dict) or d.get("kind") != "sql" or not isinstance(d.get("url"), str) \
-                or set(d) - {"kind", "url", "table", "query", "order", "key", "aggregate"} \
-                or not isinstance(d.get("aggregate", False), bool):
+                or set(d) - {"kind", "url", "table", "query", "order", "key", "aggregate", "fingerprint"} \
+                or not isinstance(d.get("aggregate", False), bool) or d.get("fingerprint", "columns") != "columns":
             raise WorkbenchError(f"{where}: the data source must be an object with kind 'sql', url, table or query")
         if any(d.get(k) is not None and not isinstance(d[k], str) for k in ("table", "query", "key")) or \
                 not all(isinstance(c, str) for c in d.get("order", [])):
             raise WorkbenchError(f"{where}: the data source's table, query, order and key must be text")
         if make_url_safe(d["url"]).password is not None:
             raise WorkbenchError(f"{where}: the data source's URL holds a password; a case file never does")
-        return cls(d["url"], d.get("table"), d.get("query"), tuple(d.get("order", ())), d.get("key"),
-                   bool(d.get("aggregate", False)), base=base)
+        aggregate = bool(d.get("aggregate", False))
+        return cls(d["url"], d.get("table"), d.get("query"), tuple(d.get("order", ())), d.get("key"), aggregate,
+                   fingerprint=d.get("fingerprint", "rows" if aggregate else None), base=base)
 
     def relative_to(self, folder: Path) -> "SqlSource":
         """The same source with a SQLite database path written relative to ``folder`` (the case file's)."""
@@ -287,6 +302,43 @@ def fingerprint(names: list[str], rows: list[tuple]) -> tuple[str, int]:
     """SHA-256 (hex) and length in bytes of the canonical rows (see the module docstring)."""
     f = Fingerprint(names).update(rows)
     return f.sha256, f.size
+
+
+def fingerprint_columns(frame: pd.DataFrame) -> tuple[str, int]:
+    """SHA-256 (hex) and length in bytes of a frame's columnar canonical form (see the module docstring)."""
+    h, size = hashlib.sha256(), 0
+    enc = json.JSONEncoder(ensure_ascii=False, separators=(",", ":")).encode
+
+    def add(b: bytes) -> None:
+        nonlocal size
+        h.update(b)
+        size += len(b)
+
+    add((enc([str(c) for c in frame.columns]) + "\n").encode("utf-8"))
+    for name in frame.columns:
+        kind, data = _column_bytes(frame[name])
+        add((enc([str(name), kind, len(frame)]) + "\n").encode("utf-8"))
+        add(data)
+    return h.hexdigest(), size
+
+
+def _column_bytes(col: pd.Series) -> tuple[str, bytes]:
+    dt = col.dtype
+    if dt.kind == "f":
+        a = col.to_numpy(dtype=np.float64)
+        return "float64", np.where(np.isnan(a), np.nan, a).astype("<f8").tobytes()
+    if dt.kind in "iu":
+        return "int64", col.to_numpy().astype("<i8").tobytes()
+    if dt.kind == "M" or isinstance(dt, pd.DatetimeTZDtype):
+        t = pd.to_datetime(col)
+        if getattr(t.dt, "tz", None) is not None:
+            t = t.dt.tz_convert("UTC").dt.tz_localize(None)
+        return "time", t.to_numpy(dtype="datetime64[ns]").view(np.int64).astype("<i8").tobytes()
+    values = col.astype(object).where(col.notna(), None).tolist()
+    enc = json.JSONEncoder(ensure_ascii=False).encode
+    text = "".join("null\n" if v is None else enc(v if isinstance(v, str) else str(canonical(v))) + "\n"
+                   for v in values)
+    return "text", text.encode("utf-8")
 
 
 def read_rows(source: SqlSource, wanted: Callable[[list[str]], list[str] | None] = lambda names: None,

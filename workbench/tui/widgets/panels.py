@@ -124,7 +124,8 @@ class SubgroupPanel(LinesPanel, can_focus=False):
 
 def status_lines(snap: Snapshot, p: int, saving: bool, busy: str = "", width: int = 120,
                  lines: int = 2, following: str | None = None) -> Lines:
-    """Chart kind, sigma and method, frozen, limits (at subgroup ``p``) | following, counts, case file, saved.
+    """The characteristic (data of several), chart kind, sigma and method, frozen, limits (at subgroup ``p``) |
+    following, counts, case file, saved.
 
     Two lines (or one when ``lines`` is 1); a piece that does not fit its line is left out whole,
     never cut.  Numbers follow the one formatting rule; each chart's limits are labelled
@@ -137,11 +138,15 @@ def status_lines(snap: Snapshot, p: int, saving: bool, busy: str = "", width: in
     for c in a.charts:
         lcl, cl, ucl = nums((c.lcl[p], c.center[p], c.ucl[p]))
         setup.append([(f"{c.name} ", BOLD), (f"LCL {lcl} · CL {cl} · UCL {ucl}", None)])
+    if a.dataset.characteristic is not None:  # data of several characteristics: which one, first of all
+        from workbench.core.analysis import characteristic_of
+        unit = characteristic_of(a)[1]
+        setup.insert(0, [(safe(a.dataset.characteristic), BOLD)] + ([(f" ({safe(unit)})", None)] if unit else []))
     if a.phase2_start is not None or snap.state.frozen is not None:
         g = [("frozen", BOLD_REVERSE)]
         if a.phase2_start is not None:
             g.append((f" Phase II from {safe(a.dataset.labels[a.phase2_start])}", None))
-        setup.insert(1, g)  # before the limits: they are on the charts' axes too
+        setup.insert(2 if a.dataset.characteristic is not None else 1, g)  # before the limits (also on the axes)
     words = ("expl.", "no cause", "excl.") if narrow else ("explained", "no cause", "excluded")
     state = (("read-only", BOLD_REVERSE) if snap.readonly else (busy or "saving…", ITALIC) if saving
              else ("saved", DIM))
