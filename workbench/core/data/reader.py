@@ -143,7 +143,13 @@ def _wanted(req: LayoutRequest):
     """The columns a columnar file must deliver for this request, or None for all of them.
 
     Only when the readings are named (``--value``, ``--streams``, ``--count``) and the subgroup
-    and stream columns are given or named like one is a subset enough for the same detection."""
+    and stream columns are given or named like one is a subset enough for the same detection.
+
+    Not from the schema alone (names and Arrow types): rule 1 (a text-typed column may hold numbers),
+    rules 3, 5 and 7 (a text key, a stream whose values never repeat within a subgroup, a key that
+    repeats) and the several-characteristics test look at the values; and the columns the layout does
+    not use are kept as context (``Dataset.extras``), so a subset read without named readings would
+    change the dataset, not only the time taken."""
     def pick(names: list[str]) -> list[str] | None:
         if not (req.value or req.streams or req.count):
             return None
