@@ -26,7 +26,8 @@ after the side's sum was last zero (the estimate the CUSUM warning states), with
 EWMA: none (its plotted statistic is a weighted average of many points, not the subgroup means the
 estimator needs).  Spread charts (R, S, MR): none (the estimator is for a step in the mean of a normal
 statistic; ranges and standard deviations are skewed and a step in the spread moves their mean and
-their sigma together).
+their sigma together; a step in a normal variance has its own estimator, by the same authors in the
+same volume [from memory], not built here).
 
 References
 ----------
