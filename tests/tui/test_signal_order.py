@@ -49,3 +49,40 @@ async def test_the_exclude_dialog_lists_the_signals_it_answers(in_tmp, opened):
                                                 "xbar/beyond-limits/2026-03-03 15:30"}
         assert app.snapshot.marks.excluded_count == 1
         await pilot.press("q")
+
+
+async def test_down_and_up_in_the_list_never_skip_a_row_where_several_signals_cover_the_cursor(in_tmp, opened):
+    """↓/j and ↑/k from a subgroup that several signals cover but none fires at (the demo's 75: a zone-A
+    signal fires at 76, a zone-B at 77, a same-side run at 82, all starting at or before 75).
+
+    The list selects the latest-starting row covering the cursor (the same-side run), and ↓ used to step on
+    from that row: to the signal at 89, skipping the three that fire after the cursor (and ↑ went *forward*
+    to 77).  Kills that bug: ↓ must land on the first row firing after the cursor and ↑ on the last one
+    firing before it, so no row is stepped over [the list's order: by first firing point, README "signals
+    list"; the expected rows are found here from each row's firing point]."""
+    app = demo_app()
+    async with opened(app, size=(120, 36)) as pilot:
+        bench, mk = app.screen, app.snapshot.marks
+        lst = bench.query_one(SignalList)
+        rows = mk.rows[:mk.current]
+        fires_at = {r.anchor for r in rows}
+        covered = [p for p in range(app.snapshot.dataset.m)
+                   if p not in fires_at and sum(r.first <= p <= r.last for r in rows) >= 2]
+        # the case the docstring names is among them, with its selected row firing after the cursor
+        assert 75 in covered and [r.anchor for r in rows if r.first <= 75 <= r.last] == [76, 77, 82]
+        tried = 0
+        for p in covered:
+            after = [i for i, r in enumerate(rows) if r.anchor > p]
+            before = [i for i, r in enumerate(rows) if r.anchor < p]
+            for key, want in (("j", after[0] if after else None), ("k", before[-1] if before else None)):
+                bench.move_to(p)
+                await settle(pilot)
+                await pilot.press(key)
+                await settle(pilot)
+                if want is None:
+                    assert bench.cursor == p, (p, key)
+                    continue
+                assert (lst.selected, bench.cursor) == (want, rows[want].anchor), (p, key)
+                tried += 1
+        assert tried >= 2 * 10
+        await pilot.press("q")

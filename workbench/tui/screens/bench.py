@@ -265,28 +265,39 @@ class BenchScreen(BenchTools, BenchCharts, Screen):
                          "No open signal before this one.")
 
     def action_step_signal(self, step: int) -> None:
+        """The next (step 1) or previous (step -1) row of the signals list (of the rows a filter keeps).
+
+        From the selected row when the cursor stands on its firing point (several signals may fire first at
+        one subgroup), or when it is a row answered by an exclusion (listed last); else from the cursor: the
+        first row firing after it, the last one firing before it.  The row selected for a subgroup between
+        firing points is one that covers it and may fire later, so stepping on from that row would skip the
+        rows firing in between."""
+        import numpy as np
         snap = self.snap
         if snap is None or snap.marks.current == 0:
             return
-        lst = self.query_one(SignalList)
-        if lst.indices is not None:  # a filter: step through the rows it keeps
-            if not lst.rows:
-                return
-            pos = (0 if step > 0 else len(lst.rows) - 1) if lst.selected is None else lst.selected + step
-            pos = max(0, min(pos, len(lst.rows) - 1))
-            index = lst.original(pos)
-            if snap.marks.rows[index].anchor >= 0:
-                self.move_to(snap.marks.rows[index].anchor)
-            lst.select(index)
-            return
-        if lst.selected is None:
-            import numpy as np
-            i = int(np.searchsorted(snap.marks.anchors, self.cursor, side="right"))
-            index = i if step > 0 else i - 1
+        lst, mk, p = self.query_one(SignalList), snap.marks, self.cursor
+        # the shown rows that are current signals, in list (= firing) order, and their shown positions
+        if lst.indices is None:
+            count, where, anchors = mk.current, None, mk.anchors
         else:
-            index = lst.selected + step
-        index = max(0, min(index, snap.marks.current - 1))
-        self.move_to(snap.marks.rows[index].anchor, jump=True, row=index)
+            count = len(lst.rows)
+            where = np.flatnonzero(lst.indices < mk.current)
+            anchors = mk.anchors[lst.indices[where]]
+        sel = lst.selected
+        if sel is not None and (lst.original(sel) >= mk.current or mk.rows[lst.original(sel)].anchor == p):
+            pos = sel + step
+        else:
+            i = int(np.searchsorted(anchors, p, side="right" if step > 0 else "left"))
+            i = i if step > 0 else i - 1
+            pos = -1 if not 0 <= i < anchors.size else (i if where is None else int(where[i]))
+        if not 0 <= pos < count:
+            return
+        index = lst.original(pos)
+        row = mk.rows[index]
+        if row.anchor >= 0:
+            self.move_to(row.anchor, jump=True, row=index if index < mk.current else None)
+        lst.select(index)
 
     def action_zoom(self, factor: float) -> None:
         if self.snap is None or self.window is None:
