@@ -66,8 +66,12 @@ async def test_down_and_up_in_the_list_never_skip_a_row_where_several_signals_co
         lst = bench.query_one(SignalList)
         rows = mk.rows[:mk.current]
         fires_at = {r.anchor for r in rows}
-        covered = [p for p in range(app.snapshot.dataset.m)
-                   if p not in fires_at and sum(r.first <= p <= r.last for r in rows) >= 2]
+        covered, seen = [], set()  # one subgroup for each set of signals covering it (the test stays short)
+        for p in range(app.snapshot.dataset.m):
+            cover = tuple(i for i, r in enumerate(rows) if r.first <= p <= r.last)
+            if p not in fires_at and len(cover) >= 2 and cover not in seen:
+                seen.add(cover)
+                covered.append(p)
         # the case the docstring names is among them, with its selected row firing after the cursor
         assert 75 in covered and [r.anchor for r in rows if r.first <= 75 <= r.last] == [76, 77, 82]
         tried = 0
@@ -84,5 +88,5 @@ async def test_down_and_up_in_the_list_never_skip_a_row_where_several_signals_co
                     continue
                 assert (lst.selected, bench.cursor) == (want, rows[want].anchor), (p, key)
                 tried += 1
-        assert tried >= 2 * 10
+        assert tried >= 2 * 5
         await pilot.press("q")

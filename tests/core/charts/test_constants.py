@@ -27,6 +27,14 @@ TABLE = [
 T3, T4 = 1.01e-3, 1.01e-4
 
 
+@pytest.fixture(autouse=True)
+def computed_afresh():
+    """Each test computes the constants afresh: a value cached by an earlier caller (another test, or
+    mutation testing's first run in the same process) would hide a wrong computation."""
+    for cached in (K.c4, K.d2, K.d3, K._outer, K._inner, K._rule):
+        cached.cache_clear()
+
+
 @pytest.mark.parametrize("n,A2,A3,c4,B3,B4,d2,d3,D3,D4", TABLE)
 def test_constants_match_printed_table(n, A2, A3, c4, B3, B4, d2, d3, D3, D4):
     assert K.a2(n) == pytest.approx(A2, abs=T3)
@@ -112,3 +120,27 @@ def test_gauss_legendre_rule_matches_numpy_and_integrates_polynomials_exactly(po
         exact = 2.0 / (2 * k + 1)
         assert abs(float(np.dot(w, t ** (2 * k))) - exact) <= 1e-12 * exact
         assert abs(float(np.dot(w, t ** (2 * k + 1)))) < 1e-13  # odd powers integrate to 0
+
+
+def test_subgroup_size_bounds_and_the_default_span_of_e2():
+    """The largest size (MAX_N) is computed, one more is refused (the bound is inclusive); e2() is the
+    individuals chart's E2 for moving ranges of span 2: 3/d2(2) = 3·√π/2 [closed form].  Kills ``n >=
+    MAX_N`` in the size check and the default span 3 (written against the mutation report)."""
+    assert 0.999 < K.c4(K.MAX_N) < 1.0
+    assert K.e2() == pytest.approx(3 * math.sqrt(math.pi) / 2, abs=1e-9)
+
+
+def test_table_of_a_constant_per_subgroup_size():
+    """``table`` evaluates a constant per subgroup size, NaN below 2 (a subgroup of one has no range):
+    c4(2) = √(2/π), c4(3) = √π/2 [closed forms], c4(5) = 0.9400 [printed].  Kills the mutants of
+    ``table`` (no test reached it: the constant path for equal sizes, the per-size loop, the n ≥ 2 guards)."""
+    c2, c3 = math.sqrt(2 / math.pi), math.sqrt(math.pi) / 2
+    got = K.table(np.array([2, 3, 1, 2, 5, 0]), K.c4)
+    assert got[[0, 1, 3]] == pytest.approx([c2, c3, c2], abs=1e-12)
+    assert got[4] == pytest.approx(0.9400, abs=T4) and np.isnan(got[2]) and np.isnan(got[5])
+    same = K.table(np.full(4, 3), K.c4)
+    assert same.shape == (4,) and same == pytest.approx(np.full(4, c3), abs=1e-12)
+    assert np.all(np.isnan(K.table(np.ones(3, int), K.c4)))
+    assert K.table(np.array([], int), K.c4).shape == (0,)
+    grid = K.table(np.array([[2, 3], [3, 2]]), K.c4)
+    assert grid.shape == (2, 2) and grid[0, 1] == pytest.approx(c3, abs=1e-12)
