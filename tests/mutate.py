@@ -43,7 +43,8 @@ SELECTION: dict[str, tuple[str, list[str]]] = {
     "format": ("workbench/core/case/format.py", [
         CASE + "test_case_file.py", CASE + "test_ref_chain_links.py", CASE + "test_case_replay.py"]),
     "integrity": ("workbench/core/case/integrity.py", [
-        CASE + "test_case_file.py", CASE + "test_ref_chain_links.py", CASE + "test_case_replay.py"]),
+        CASE + "test_case_file.py", CASE + "test_ref_chain_links.py", CASE + "test_case_replay.py",
+        CASE + "test_ref_limits_difference.py"]),
 }
 
 
