@@ -104,7 +104,7 @@ def score() -> None:
         survived = states.count("survived")
         no_tests = states.count("no tests")
         not_run = states.count("not checked")
-        done = killed + survived
+        done = killed + survived + no_tests  # a mutant no selected test reaches is not killed
         pct = f"{100 * killed / done:.1f} %" if done else "—"
         print(f"{name:<10} {len(states):>7} {killed:>7} {survived:>8} {no_tests:>8} {not_run:>7} {pct:>7}")
 
