@@ -41,7 +41,8 @@ SELECTION: dict[str, tuple[str, list[str]]] = {
     "streams": ("workbench/core/streams.py", ["tests/core/test_streams.py", "tests/core/test_ref_breakdown_sides.py",
                                              "tests/core/test_ref_stream_rows.py"]),
     "format": ("workbench/core/case/format.py", [
-        CASE + "test_case_file.py", CASE + "test_ref_chain_links.py", CASE + "test_case_replay.py"]),
+        CASE + "test_case_file.py", CASE + "test_ref_chain_links.py", CASE + "test_case_replay.py",
+        CASE + "test_ref_repair_accepts_exactly.py"]),
     "integrity": ("workbench/core/case/integrity.py", [
         CASE + "test_case_file.py", CASE + "test_ref_chain_links.py", CASE + "test_case_replay.py",
         CASE + "test_ref_limits_difference.py"]),
