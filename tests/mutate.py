@@ -8,6 +8,7 @@ only the module's test files (``SELECTION`` below); then it runs mutmut there wi
 ``nice``.  Each module keeps its own results, so a module can be rerun without touching the others.
 
     .venv/bin/python tests/mutate.py rules                # run (resumes where it stopped)
+    .venv/bin/python tests/mutate.py rules --fresh        # start over (after the module's tests changed)
     .venv/bin/python tests/mutate.py rules --results      # the survivors
     .venv/bin/python tests/mutate.py rules --show NAME    # one mutant's diff
     .venv/bin/python tests/mutate.py --score              # killed / survived per module
@@ -19,6 +20,7 @@ from __future__ import annotations
 import json
 import os
 import re
+import shutil
 import subprocess
 import sys
 from pathlib import Path
@@ -116,7 +118,7 @@ def main(argv: list[str]) -> int:
         score()
         return 0
     if not argv or argv[0] not in SELECTION:
-        print(f"usage: mutate.py MODULE [--results | --show NAME] | --score  (MODULE: {', '.join(SELECTION)})",
+        print(f"usage: mutate.py MODULE [--fresh | --results | --show NAME] | --score  (MODULE: {', '.join(SELECTION)})",
               file=sys.stderr)
         return 2
     here = prepare(argv[0])
@@ -124,6 +126,10 @@ def main(argv: list[str]) -> int:
         return mutmut(here, "results")
     if argv[1:2] == ["--show"]:
         return mutmut(here, "show", argv[2])
+    if argv[1:2] == ["--fresh"]:
+        # mutmut keeps a verdict while the mutated function is unchanged, and maps only new tests to
+        # functions: after a test of the module changed, start over
+        shutil.rmtree(here / "mutants", ignore_errors=True)
     os.environ.setdefault("PYTHONDONTWRITEBYTECODE", "1")
     return mutmut(here, "run", "--max-children", "1")
 
