@@ -45,7 +45,7 @@ SELECTION: dict[str, tuple[str, list[str]]] = {
                                              "tests/core/test_ref_stream_rows.py", "tests/core/test_ref_stream_history.py"]),
     "format": ("workbench/core/case/format.py", [
         CASE + "test_case_file.py", CASE + "test_ref_chain_links.py", CASE + "test_case_replay.py",
-        CASE + "test_ref_repair_accepts_exactly.py"]),
+        CASE + "test_ref_repair_accepts_exactly.py", CASE + "test_ref_database_data_ref.py"]),
     "integrity": ("workbench/core/case/integrity.py", [
         CASE + "test_case_file.py", CASE + "test_ref_chain_links.py", CASE + "test_case_replay.py",
         CASE + "test_ref_limits_difference.py"]),

@@ -200,3 +200,12 @@ def test_p_values_in_the_warnings(p, text):
     """p-values are shown to 3 decimals, below 0.001 as "p < 0.001" [common practice in reporting].
     Kills each part of ``_p_text``: the condition forced, ``<=``, ``1.001`` and the words altered."""
     assert A._p_text(p) == text
+
+
+def test_frozen_defect_limits_have_no_upper_cap():
+    """Defects have no upper bound: frozen at c̄ = 7.5 the c chart (5 units a sample) and the u chart (one
+    unit a sample) keep 7.5 + 3√7.5 = 15.72 [definition].  Kills the frozen branch capping every chart but
+    p at the first sample size (``kind == "np" or True``)."""
+    for kind, sizes in (("c", np.full(4, 5.0)), ("u", np.full(4, 1.0))):
+        chart, _ = attribute_chart(kind, [3, 5, 2, 6], sizes, None, frozen_rate=7.5)
+        assert chart.ucl == pytest.approx(np.full(4, 7.5 + 3 * np.sqrt(7.5)), rel=1e-12), kind

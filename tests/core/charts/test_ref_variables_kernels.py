@@ -161,3 +161,13 @@ def test_known_sigma_must_be_positive_and_no_subgroup_gives_nan():
     assert V.estimate_sigma("known", st, np.ones(6, bool), 1.5) == 1.5
     single = V.subgroup_stats(rows(1))
     assert np.isnan(V.estimate_sigma("pooled", single, np.ones(6, bool)))
+
+
+def test_one_subgroup_with_a_range_gives_sigma_from_it_alone():
+    """Only one subgroup has two readings or more: R̄/d2 is that subgroup's R/d2(3) = R·√π/3 [closed form
+    d2(3) = 3/√π].  Kills the cached path answering NaN for a single usable subgroup (``k > 1``)."""
+    x = np.full((30, 3), np.nan)
+    x[:, 0] = np.arange(30.0)
+    x[7] = [4.0, 7.0, 5.0]
+    st = V.subgroup_stats(x)
+    assert V.estimate_sigma("rbar", st, np.ones(30, bool)) == pytest.approx(3.0 * np.sqrt(np.pi) / 3, rel=1e-12)
