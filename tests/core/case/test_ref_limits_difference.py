@@ -36,6 +36,8 @@ def test_the_first_difference_is_named_by_its_path():
     assert snapshot_difference({"chart": "xbar-r"}, {"chart": "xbar-s"}) == \
         "chart: recorded 'xbar-r', recomputed 'xbar-s'"
     assert snapshot_difference([[1.0, 2.0]], [[1.0, 3.0]]) == "[0][1]: recorded 2.0, recomputed 3.0"
+    # a list on one side only is a plain difference (kills the list branch taken when either is a list)
+    assert snapshot_difference({"ucl": [1.0]}, {"ucl": 1.0}) == "ucl: recorded [1.0], recomputed 1.0"
 
 
 def test_limits_gaps_follow_the_previous_limits_on_the_same_data():
