@@ -122,3 +122,79 @@ def test_count_breakdown_fields_when_nobody_stands_out_and_when_nothing_is_left(
     gone = breakdown(a, 2)
     assert (gone.position, gone.label, gone.driver) == (2, "B03", None) and np.isnan(gone.range)
     assert gone.mean == pytest.approx(c[2].sum() / 100) and gone.verdict == "no counts in this subgroup"
+
+
+def test_no_comparison_for_count_data_or_one_stream_and_too_few_readings():
+    """The streams are compared on readings only, and only two or more streams: count data and a single
+    stream have no comparison; streams with one reading each are too few to compare [one-way ANOVA needs
+    two readings in a stream].  Kills ``values is None and k < 2``, the fields starting as "" instead of
+    None, and the "too few" words altered."""
+    from workbench.core.analysis import comparison_of
+    c, n = counts()
+    assert comparison_of(analyse(dataset(c, n, ("L1", "L2")), Settings(chart="p"))) is None
+    assert comparison_of(analyse(make_dataset(readings()[:, 0]), Settings())) is None
+    few = comparison_of(analyse(make_dataset([[1.0, 2.0, np.nan], [1.5, np.nan, 3.0], [1.2, np.nan, np.nan]]),
+                                Settings(chart="xbar-r")))  # only S1 has two readings
+    assert few.anova_p is None and few.anova_f is None and few.share_between is None and not few.differ
+    assert few.advice == "too few readings per stream to compare the streams"
+
+
+def test_streams_without_spread_inside_and_a_small_variance():
+    """Each stream constant (streams apart): no within-stream variance, so no F and no p [F = MSB/MSW
+    undefined]; with readings of SD 0.3 the share between streams is still computed (variance below 1).
+    Kills the F test and its p run when MSW = 0 (``or True``), the share's guards ``or True`` and ``> 1``,
+    and the lowest mean not named."""
+    from workbench.core.analysis import comparison_of
+    flat = comparison_of(analyse(make_dataset(np.tile([10.0, 11.0, 12.0], (8, 1))), Settings()))
+    assert flat.anova_f is None and flat.anova_p is None
+    v = readings()
+    v[:, 1] += 0.5
+    small = comparison_of(analyse(make_dataset(v), Settings()))
+    assert small.share_between is not None and 0 < small.share_between < 1
+    lowest = ("S1", "S2", "S3", "S4")[int(np.argmin(v.mean(axis=0)))]
+    assert small.differ and f"highest mean S2, lowest {lowest})" in small.advice
+
+
+def test_a_stream_constant_over_time_has_no_z_and_a_subgroup_of_equal_readings_no_gap():
+    """A stream that never varies has SD 0: its z against its own history is undefined (NaN), not ±∞.
+    Readings equal within every subgroup give R̄ = 0, so σ̂ within is 0 and no gap can be scaled: no gap,
+    no roles, "no single stream stands out" [definition: z and the gap divide by these].  Kills ``sd ≥ 0``
+    and ``or True`` for z, the within-sigma guards (``or``, ``≥ 0``, forced, None, "XXnanXX"), the
+    largest gap taken from an empty list, ``rng ≥ 0`` for the roles and the words of the verdict."""
+    v = readings()
+    v[:, 0] = 10.0
+    b = breakdown(analyse(make_dataset(v), Settings()), 12)
+    assert np.isnan(b.rows[0].z) and np.isfinite(b.rows[1].z)
+    level = np.random.default_rng(1).normal(10, 0.3, 40)
+    same = np.repeat(level[:, None], 4, axis=1)
+    b = breakdown(analyse(make_dataset(same), Settings()), 12)
+    assert all(np.isnan(r.gap_z) for r in b.rows) and all(r.role == "" for r in b.rows)
+    assert b.driver is None and b.verdict == "no single stream stands out"
+
+
+def test_rows_out_of_use_an_excluded_cell_one_reading_and_three():
+    """A reading excluded on its own or missing is not set against the others and takes no share of the
+    range; a subgroup left with one reading has no range, no roles, no shares; with three readings the
+    maximum's share is (R − R₋ⱼ)/R over the other two [definition].  Kills the default share 1, the gap
+    computed for a row out of use (``or``), the roles computed without two readings (``use or …``) and the
+    range without a stream taken as 0 for two others (``> 2``, ``>= 3``)."""
+    v = readings()
+    v[30] = [10.0, 14.0, 10.4, 10.1]
+    a = analyse(make_dataset(v), Settings(), [Exclusion("31", "S2")])
+    b = breakdown(a, 30)
+    cell = b.rows[1]
+    assert cell.excluded and np.isnan(cell.gap_z) and cell.range_share == 0.0 and cell.role == ""
+    assert b.range == pytest.approx(0.4) and b.rows[2].range_share == pytest.approx((0.4 - 0.1) / 0.4)
+    v[31] = [10.0, np.nan, np.nan, np.nan]
+    one = breakdown(analyse(make_dataset(v), Settings()), 31)
+    assert np.isnan(one.range) and [r.role for r in one.rows] == [""] * 4
+    assert [r.range_share for r in one.rows] == [0.0] * 4
+
+
+def test_two_streams_moving_together():
+    """Two streams both 2 SDs above their history: mean z·√2 = 2.8 ≥ 2.5, a common cause [the verdict's
+    rule].  Kills the common cause requiring more than two streams (``> 2``, ``>= 3``)."""
+    v = readings()[:, :2]
+    v[10] = v.mean(axis=0) + 2.0 * v.std(axis=0, ddof=1)
+    b = breakdown(analyse(make_dataset(v), Settings()), 10)
+    assert b.driver is None and b.verdict.startswith("all 2 streams moved together")
