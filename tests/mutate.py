@@ -32,7 +32,7 @@ C, K, CASE = "tests/core/charts/", "tests/core/capability/", "tests/core/case/"
 # module -> (source file, the unit-level test files that check it directly)
 SELECTION: dict[str, tuple[str, list[str]]] = {
     "rules": ("workbench/core/charts/rules.py", [C + "test_rules.py", C + "test_ref_rules_edges.py"]),
-    "constants": ("workbench/core/charts/constants.py", [C + "test_constants.py"]),
+    "constants": ("workbench/core/charts/constants.py", [C + "test_constants.py", C + "test_ref_constants_table.py"]),
     "variables": ("workbench/core/charts/variables.py", [
         C + "test_charts.py", C + "test_ref_sigma_exclusions.py", C + "test_ref_chart_switch.py",
         C + "test_pooled_sbar.py", C + "test_ref_variables_kernels.py"]),
