@@ -40,7 +40,7 @@ SELECTION: dict[str, tuple[str, list[str]]] = {
         C + "test_attribute.py", C + "test_ref_laney_dispersion.py", C + "test_ref_attribute_edges.py"]),
     "formulas": ("workbench/core/capability/formulas.py", [
         K + "test_capability_formulas.py", K + "test_ref_percentile.py", K + "test_capability_assess.py",
-        K + "test_ref_formulas_edges.py"]),
+        K + "test_ref_formulas_edges.py", K + "test_ref_formulas_shapes.py"]),
     "streams": ("workbench/core/streams.py", ["tests/core/test_streams.py", "tests/core/test_ref_breakdown_sides.py",
                                              "tests/core/test_ref_stream_rows.py", "tests/core/test_ref_stream_history.py"]),
     "format": ("workbench/core/case/format.py", [
