@@ -42,7 +42,8 @@ SELECTION: dict[str, tuple[str, list[str]]] = {
         K + "test_capability_formulas.py", K + "test_ref_percentile.py", K + "test_capability_assess.py",
         K + "test_ref_formulas_edges.py", K + "test_ref_formulas_shapes.py"]),
     "streams": ("workbench/core/streams.py", ["tests/core/test_streams.py", "tests/core/test_ref_breakdown_sides.py",
-                                             "tests/core/test_ref_stream_rows.py", "tests/core/test_ref_stream_history.py"]),
+                                             "tests/core/test_ref_stream_rows.py", "tests/core/test_ref_stream_history.py",
+                                             "tests/core/test_ref_stream_degenerate.py"]),
     "format": ("workbench/core/case/format.py", [
         CASE + "test_case_file.py", CASE + "test_ref_chain_links.py", CASE + "test_case_replay.py",
         CASE + "test_ref_repair_accepts_exactly.py", CASE + "test_ref_database_data_ref.py"]),
