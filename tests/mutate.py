@@ -49,7 +49,8 @@ SELECTION: dict[str, tuple[str, list[str]]] = {
         CASE + "test_ref_repair_accepts_exactly.py", CASE + "test_ref_database_data_ref.py"]),
     "integrity": ("workbench/core/case/integrity.py", [
         CASE + "test_case_file.py", CASE + "test_ref_chain_links.py", CASE + "test_case_replay.py",
-        CASE + "test_ref_limits_difference.py", CASE + "test_ref_verify_paths.py"]),
+        CASE + "test_ref_limits_difference.py", CASE + "test_ref_verify_paths.py",
+        CASE + "test_ref_verify_more.py"]),
 }
 
 
