@@ -150,3 +150,39 @@ async def test_q_in_a_dialog_cancels_it_or_types_it_never_quits(in_tmp, opened):
         assert len(app.snapshot.events) == 1  # nothing was recorded
         await pilot.press("q")
     assert app.return_code == 0
+
+
+async def test_exclude_dialog_preview_follows_the_scope_reading_by_reading(in_tmp, opened):
+    """The list of answered signals is what the trail will record for the scope chosen: the whole subgroup
+    2026-03-03 15:30 answers both beyond-limits signals; the reading H2 (the mis-keyed 509.6, demo_data/README.md)
+    answers them too, because the subgroup recomputed without it no longer fires; the reading H5 answers
+    nothing (H2's 509.6 still drives the point). Confirming H5 records no answered signal."""
+    from textual.widgets import RadioButton, Select, Static
+    app = demo_app()
+    async with opened(app, size=(120, 36)) as pilot:
+        bench = app.screen
+        bench.move_to(app.snapshot.dataset.index_of("2026-03-03 15:30"))
+        await settle(pilot)
+        await pilot.press("x")
+        await settle(pilot)
+        dialog = app.screen
+        assert isinstance(dialog, ExcludeDialog)
+        answers = lambda: str(dialog.query_one("#answers", Static).render())  # noqa: E731
+        assert "xbar/beyond-limits/2026-03-03 15:30 (1 firing point)" in answers()
+        assert "r/beyond-limits/2026-03-03 15:30 (1 firing point)" in answers()
+        dialog.query_one("#scope-reading", RadioButton).value = True
+        await settle(pilot)
+        dialog.query_one("#stream", Select).value = "H2"
+        await settle(pilot)
+        assert "Leaving out reading H2" in answers() and "r/beyond-limits/2026-03-03 15:30 (1 firing point)" in answers()
+        dialog.query_one("#stream", Select).value = "H5"
+        await settle(pilot)
+        assert "still fires without this reading" in answers() or "answers no signal" in answers()
+        assert "(1 firing point)" not in answers()
+        dialog.query_one("#reason").value = "gauge dropped"
+        await pilot.click("#confirm")
+        await settle(pilot)
+        ev = app.snapshot.events[-1]
+        assert ev.kind == "exclude" and ev.payload["stream"] == "H5"
+        assert not any(ev.payload["answers"].values())
+        await pilot.press("q")

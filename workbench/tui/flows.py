@@ -73,17 +73,22 @@ class Flows:
             done = {s for j, s in enumerate(ds.streams) if snap.analysis.excluded_cells[position, j]}
         streams = ds.streams if ds.values is not None else ()
         from workbench.core.case.answers import answered_words, exclusion_answers
-        try:  # every signal this exclusion answers, listed before it is confirmed (the trail lists them too)
-            answers = answered_words(exclusion_answers(snap.analysis, snap.state, Exclusion(label), key))
-        except Exception:  # never block the dialog on the list
-            answers = []
+
+        def preview(scope: str | None) -> tuple[str, ...]:
+            """Every signal the exclusion of the subgroup (None) or of one reading answers, listed before it
+            is confirmed (the trail lists the same)."""
+            try:
+                return tuple(answered_words(exclusion_answers(snap.analysis, snap.state, Exclusion(label, scope),
+                                                              key), reading=scope is not None))
+            except Exception:  # never block the dialog on the list
+                return ()
 
         def confirmed(choice: ExcludeChoice | None) -> None:
             if choice is not None:
                 self.act(lambda s: s.exclude(choice.target, choice.reason, choice.cause, key))
 
         self.push_screen(ExcludeDialog(label, streams, snap.state.causes, stream, words, frozenset(done),
-                                       tuple(answers), suggestions), confirmed)
+                                       preview=preview, suggestions=suggestions), confirmed)
 
     def restore_flow(self, position: int, stream: str | None = None) -> None:
         snap = self.snapshot

@@ -123,7 +123,13 @@ def answer_table(a: Analysis, state: Any, sigs: _Signals | None = None) -> dict[
                 points.pop(lab, None)
             else:
                 points[lab] = (mark.seq, mark.state, mark.note, mark.author, mark.time, mark.seq)
-    for info in getattr(state, "exclusion_info", {}).values():
+    infos = getattr(state, "exclusion_info", {})
+    readings = {ex.key for ex in getattr(state, "exclusions", ()) if ex.stream is not None}
+    for key_, info in infos.items():
+        if key_ in readings:
+            # A reading's exclusion keeps its subgroup in the limits, recomputed from the other readings: a
+            # signal that still fires there is not explained by it (the signals it answered went away with it).
+            continue
         if info.answers is not None:
             given = list(info.answers)
         else:  # older exclusions: by key, as they always were
@@ -179,15 +185,20 @@ def state_of(all_statuses: dict[str, SignalStatus], key: str) -> str:
 
 
 def exclusion_answers(a: Analysis, state: Any, target: Exclusion, chosen: str | None = None,
-                      positions: list[int] | None = None) -> dict[str, list[str]]:
+                      positions: list[int] | None = None, after: Analysis | None = None) -> dict[str, list[str]]:
     """The signals an exclusion answers, with the firing points it answers of each.
 
-    Every open signal (any chart, any rule) whose firing points all lie in excluded subgroups once
-    ``target`` (or the subgroups at ``positions``, for a range) is excluded — a reading's exclusion
-    counts its subgroup — answers with all its firing points; the signal chosen in the dialog or
-    with ``--signal``, and for a range every signal that fired in it, answers with those of its firing
-    points in those subgroups (its other points stay open).
+    A whole subgroup (or the subgroups at ``positions``, for a range): every open signal (any chart,
+    any rule) whose firing points all lie in excluded subgroups once it is excluded answers with all
+    its firing points; the signal chosen in the dialog or with ``--signal``, and for a range every
+    signal that fired in it, answers with those of its firing points in those subgroups (its other
+    points stay open).
+
+    One reading (``target.stream`` set): see :func:`reading_answers` (``after`` is the analysis with
+    the reading left out; computed here when not given).
     """
+    if target.stream is not None and positions is None:
+        return reading_answers(a, state, target, chosen, after)
     ds = a.dataset
     where = positions if positions is not None else [ds.index_of(target.subgroup)]
     gone = np.asarray(a.excluded_subgroups, bool).copy()
@@ -211,11 +222,63 @@ def exclusion_answers(a: Analysis, state: Any, target: Exclusion, chosen: str | 
     return out
 
 
-def answered_words(answers: dict[str, list[str]]) -> list[str]:
-    """``xbar/beyond-limits/… (all 3 firing points)`` for each answered signal, for dialogs and the trail."""
+def _firing_at(an: Analysis, p: int) -> set[tuple[str, str]]:
+    """(chart, rule) of every signal of ``an`` with a firing point at position ``p``."""
+    sigs = an.signals
+    near = sigs.between(p, p) if hasattr(sigs, "between") else range(len(sigs))
+    return {(sigs[i].chart, sigs[i].rule) for i in near if p in set(np.asarray(sigs[i].fired).tolist())}
+
+
+def reading_answers(a: Analysis, state: Any, target: Exclusion, chosen: str | None = None,
+                    after: Analysis | None = None) -> dict[str, list[str]]:
+    """The signals leaving out one reading answers.
+
+    The subgroup stays in the limits, its statistic recomputed from its other readings (common practice:
+    a wrong reading is corrected, the sample is kept). So the exclusion answers a signal at that subgroup
+    only where the recomputed point no longer fires for the signal's chart and rule — the reading was
+    the cause. An open signal whose firing points all lie in the subgroup answers when it no longer fires
+    there; the chosen signal answers with its firing point in the subgroup when that point no longer
+    fires, and otherwise is listed with no point (it stays open: the other readings still signal).
+    """
+    ds = a.dataset
+    p = ds.index_of(target.subgroup)
+    if after is None:
+        from workbench.core.analysis import analyse
+        from workbench.core.case.payload import exclusion_order
+        after = analyse(ds, state.settings, sorted({*state.exclusions, target}, key=exclusion_order), state.frozen)
+    still = _firing_at(after, p)
+    now = statuses(a, state)
+    label = str(ds.labels[p])
+    out: dict[str, list[str]] = {}
+    sigs = a.signals
+    near = sigs.between(p, p) if hasattr(sigs, "between") else range(len(sigs))
+    for i in near:
+        s: Signal = sigs[i]
+        if now.get(s.key) is not None and now[s.key].state != "open":
+            continue
+        fired = np.asarray(s.fired, np.int64)
+        if p not in set(fired.tolist()):
+            continue
+        gone = (s.chart, s.rule) not in still
+        if gone and (bool((fired == p).all()) or s.key == chosen):
+            out[s.key] = [label]
+        elif s.key == chosen:
+            out[s.key] = []
+    if chosen and chosen not in out and (now.get(chosen) is None or now[chosen].state == "open"):
+        out[chosen] = []
+    return out
+
+
+def answered_words(answers: dict[str, list[str]], reading: bool = False) -> list[str]:
+    """``xbar/beyond-limits/… (all 3 firing points)`` for each answered signal, for dialogs and the trail;
+    ``reading``: the answers of one reading's exclusion (a signal listed without points still fires)."""
     out = []
     for key, labs in answers.items():
         n = len(labs)
-        out.append(f"{key} ({n} firing point{'s' if n != 1 else ''})" if n else
-                   f"{key} (none of its firing points: it stays open)")
+        if n:
+            out.append(f"{key} ({n} firing point{'s' if n != 1 else ''})")
+        elif reading:
+            out.append(f"{key} (still fires without this reading: it stays open)")
+        else:
+            out.append(f"{key} (none of its firing points: it stays open)")
     return out

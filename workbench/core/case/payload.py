@@ -199,11 +199,15 @@ def _answered(p: dict, q) -> str:
     answers = p.get("answers")
     if not isinstance(answers, dict) or not answers:
         return ""
-    parts = []
+    parts, open_ = [], []
     for key, labs in answers.items():
         n = len(labs) if isinstance(labs, list) else 0
-        parts.append(f"{q(key)} ({n} firing point{'s' if n != 1 else ''})" if n else f"{q(key)} (no firing point)")
-    return "; answers " + ", ".join(parts)
+        if n:
+            parts.append(f"{q(key)} ({n} firing point{'s' if n != 1 else ''})")
+        else:  # named (chosen) but none of its firing points answered: it stays open
+            open_.append(q(key))
+    return (("; answers " + ", ".join(parts)) if parts else "") + \
+        (f"; {', '.join(open_)} stay{'s' if len(open_) == 1 else ''} open" if open_ else "")
 
 
 def describe_trail(events: Iterable[Event]) -> list[str]:

@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Callable
 
 from rich.text import Text
 from textual import on
@@ -32,14 +33,16 @@ class ExcludeDialog(ModalScreen[ExcludeChoice | None]):
 
     def __init__(self, label: str, streams: tuple[str, ...], causes: tuple[str, ...],
                  stream: str | None = None, signal_words: str | None = None,
-                 excluded_streams: frozenset[str] = frozenset(), answers: tuple[str, ...] = (),
+                 excluded_streams: frozenset[str] = frozenset(),
+                 preview: Callable[[str | None], tuple[str, ...]] | None = None,
                  suggestions: tuple[str, ...] = ()) -> None:
         super().__init__(classes="dialog-screen")
         self.label, self.streams, self.causes = label, streams, causes
         self.stream, self.signal_words = stream, signal_words
         self.choosable = tuple(s for s in streams if s not in excluded_streams)
-        self.answers = answers
-        """Every signal the exclusion answers, in words (shown before it is confirmed)."""
+        self.preview = preview or (lambda scope: ())
+        """Every signal the exclusion of the subgroup (None) or of one reading (its stream) answers, in words."""
+        self._previews: dict[str | None, tuple[str, ...]] = {}
         self.suggestions = suggestions
         """The signal's shape and the cause families often looked at first (shown, never chosen)."""
 
@@ -49,12 +52,7 @@ class ExcludeDialog(ModalScreen[ExcludeChoice | None]):
                          classes="dialog-title")
             if self.signal_words:
                 yield Static(Text(f"Answers the signal: {self.signal_words}"), classes="dialog-prompt")
-            if self.answers:
-                yield Static(Text("Signals this exclusion answers:\n" + "\n".join(f"  {safe(a)}" for a in self.answers)),
-                             id="answers", classes="dialog-prompt")
-            else:
-                yield Static(Text("It answers no signal: none has all its firing points here."), id="answers",
-                             classes="dialog-prompt")
+            yield Static(self._answers_text(self._initial_scope()), id="answers", classes="dialog-prompt")
             yield Static("Reason (required): why is this point not part of the process?", markup=False)
             yield Input(placeholder="e.g. nozzle 4 blocked, fixed at 10:40", id="reason")
             yield Static("Cause category", markup=False)
@@ -77,9 +75,36 @@ class ExcludeDialog(ModalScreen[ExcludeChoice | None]):
     def on_mount(self) -> None:
         self.query_one("#reason", Input).focus()
 
+    def _initial_scope(self) -> str | None:
+        if self.stream is None or not self.choosable or len(self.streams) <= 1:
+            return None
+        return self.stream if self.stream in self.choosable else self.choosable[0]
+
+    def _answers_text(self, scope: str | None) -> Text:
+        """What the exclusion answers for this scope (a reading answers only what stops firing without it)."""
+        if scope not in self._previews:
+            self._previews[scope] = self.preview(scope)
+        answers = self._previews[scope]
+        if answers:
+            head = ("Signals this exclusion answers:" if scope is None else
+                    f"Leaving out reading {safe(scope)} (the subgroup stays, recomputed without it) answers:")
+            return Text(head + "\n" + "\n".join(f"  {safe(a)}" for a in answers))
+        if scope is None:
+            return Text("It answers no signal: none has all its firing points here.")
+        return Text(f"Leaving out reading {safe(scope)} answers no signal: the subgroup stays in the limits, "
+                    "recomputed from its other readings, and nothing that fires here stops firing.")
+
+    def _show_answers(self) -> None:
+        self.query_one("#answers", Static).update(self._answers_text(self._stream()))
+
     @on(RadioSet.Changed, "#scope")
     def scope_changed(self, event: RadioSet.Changed) -> None:
         self.query_one("#stream", Select).disabled = event.pressed.id != "scope-reading"
+        self._show_answers()
+
+    @on(Select.Changed, "#stream")
+    def stream_changed(self) -> None:
+        self._show_answers()
 
     def _stream(self) -> str | None:
         if not self.query("#scope"):
