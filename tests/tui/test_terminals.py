@@ -140,3 +140,50 @@ def test_benchmark_reports_both_round_trips():
     assert set(result) >= {"app_ms", "empty_ms", "ratio"}
     assert result["app_ms"] > 0 and result["empty_ms"] > 0
     assert result["ratio"] == pytest.approx(result["app_ms"] / result["empty_ms"], rel=1e-2)
+
+
+def _limit_rows(picture) -> dict[str, tuple[int, str]]:
+    """Each y label the chart shows (UCL, CL, LCL) -> (row, its number), read off the drawn picture."""
+    import re
+    out = {}
+    for i, line in enumerate(picture.plain):
+        m = re.match(r"^\s*(UCL|CL|LCL)[ ~](\S+)├", line)
+        if m:
+            out[m.group(1)] = (i, m.group(2))
+    return out
+
+
+@pytest.mark.parametrize("size", [(120, 36), (80, 24)])
+async def test_each_chart_draws_its_three_limit_lines_on_rows_of_their_own(in_tmp, opened, size):
+    """At 80×24 the R chart once had three plot rows, its CL overwrote its UCL and the UCL was not drawn.
+    Every chart on the bench shows UCL, CL and LCL, each labelled on its own row, the row drawn as a line (─),
+    with the numbers by the one formatting rule (core/text.py: nums tells the three apart)."""
+    from workbench.core.text import nums
+    app = demo_app()
+    async with opened(app, size=size) as pilot:
+        bench = app.screen
+        a = app.snapshot.analysis
+        for wid, chart in (("#location", a.charts[0]), ("#spread", a.charts[1])):
+            pic = bench.query_one(wid).picture
+            rows = _limit_rows(pic)
+            assert set(rows) == {"UCL", "CL", "LCL"}, (wid, size, pic.plain)
+            assert len({r for r, _ in rows.values()}) == 3
+            assert rows["UCL"][0] < rows["CL"][0] < rows["LCL"][0]  # drawn in order, top to bottom
+            for word, (row, text) in rows.items():
+                assert pic.plain[row].count("─") >= 3, (word, pic.plain[row])  # the line shows between points
+            assert [rows[w][1] for w in ("LCL", "CL", "UCL")] == \
+                nums((float(chart.lcl[0]), float(chart.center[0]), float(chart.ucl[0])))
+        await pilot.press("q")
+
+
+def test_a_short_plot_gives_up_the_room_beyond_the_limits_before_a_limit_line():
+    """plotting.reach_for: on a tall plot the axis reaches 1.5 band widths beyond the limits; on a short one
+    less, down to none, so the band LCL…UCL keeps 2.5 rows (three lines on rows of their own) [definition:
+    band share 1/((1+2·reach)(1+2·pad)) of rows−1 steps]."""
+    from workbench.tui.plotting import LINE_ROWS, PAD, REACH, reach_for
+    assert reach_for(40) == REACH
+    assert reach_for(3) == 0.0 and reach_for(4) == 0.0
+    for rows in range(5, 40):
+        r = reach_for(rows)
+        assert 0 <= r <= REACH
+        assert (rows - 1) / ((1 + 2 * r) * (1 + 2 * PAD)) >= LINE_ROWS - 1e-9  # the band keeps its rows

@@ -169,14 +169,30 @@ REACH = 1.5
 clipped at the frame edge, so one outlier cannot squeeze the limit lines onto one row."""
 
 
-def _keep_limits_readable(lo: float, hi: float, limits: dict) -> tuple[float, float]:
+PAD = 0.12
+"""Share of the y span added above and below, so limit lines do not sit on the frame."""
+LINE_ROWS = 2.5
+"""The limit band (LCL to UCL) spans at least this many rows, so LCL, CL and UCL fall on rows of their own."""
+
+
+def reach_for(rows: int) -> float:
+    """How many limit-band widths the y axis may show beyond the limits on a plot ``rows`` rows tall: REACH
+    when there is room, less on a short plot so the band keeps LINE_ROWS rows (every limit line drawn).
+
+    The band's share of the axis is 1 / ((1 + 2·reach)(1 + 2·PAD)); on ``rows`` rows (``rows - 1`` steps) it
+    covers LINE_ROWS steps when reach = ((rows − 1) / (LINE_ROWS (1 + 2·PAD)) − 1) / 2."""
+    room = ((max(rows, 1) - 1) / (LINE_ROWS * (1 + 2 * PAD)) - 1) / 2
+    return max(0.0, min(REACH, room))
+
+
+def _keep_limits_readable(lo: float, hi: float, limits: dict, rows: int = 1000) -> tuple[float, float]:
     band = [v for lim in limits.values() if lim is not None
             for v in ([lim] if isinstance(lim, float) else [float(lim[1].min()), float(lim[1].max())])]
     band = [v for v in band if np.isfinite(v)]
     if len(band) < 2 or max(band) <= min(band):
         return lo, hi
     b_lo, b_hi = min(band), max(band)
-    reach = REACH * (b_hi - b_lo)
+    reach = reach_for(rows) * (b_hi - b_lo)
     return max(lo, b_lo - reach), min(hi, b_hi + reach)
 
 
@@ -206,9 +222,9 @@ def build(data: ChartData, win: Window, width: int, height: int, lwidth: int, la
                            for v in ([lim] if isinstance(lim, float) else [float(lim[1].min()), float(lim[1].max())])]
     ys = [y for y in ys if np.isfinite(y)]
     lo, hi = (min(ys), max(ys)) if ys else (0.0, 1.0)
-    lo, hi = _keep_limits_readable(lo, hi, limits)
+    lo, hi = _keep_limits_readable(lo, hi, limits, height - 2 - (1 if xticks else 0))
     span = hi - lo if hi > lo else max(abs(hi), 1.0) * 0.1
-    lo, hi = lo - 0.12 * span, hi + 0.12 * span
+    lo, hi = lo - PAD * span, hi + PAD * span
     tr = _clip(tr, lo, hi)
     low = None if low is None else _clip(low, lo, hi)
     plt.xlim(0, cols - 1)
