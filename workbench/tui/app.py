@@ -159,6 +159,8 @@ class WorkbenchApp(Watching, Flows, App[int]):
     @on(SessionReady)
     def session_ready(self, msg: SessionReady) -> None:
         self.session, self.snapshot = msg.session, msg.snapshot
+        from workbench.tui.viewstate import read_view
+        self.saved_view = read_view(msg.session.case.path)
         self.switch_screen(BenchScreen())
         for notice in msg.session.notices:
             self.notify(safe(notice), markup=False, timeout=NOTICE_SECONDS)
@@ -250,7 +252,24 @@ class WorkbenchApp(Watching, Flows, App[int]):
     async def action_quit(self) -> None:
         self.exit(0)
 
+    saved_view = None
+    """Where the bench was looking when this case was last closed (the sidecar beside the case), or None."""
+
+    def save_view(self) -> None:
+        """Keep the bench's cursor, zoom window and selected signal beside the case (never in the trail)."""
+        bench = self.bench()
+        if self.session is None or bench is None:
+            return
+        view = bench.current_view()
+        if view is not None:
+            from workbench.tui.viewstate import write_view
+            write_view(self.session.case.path, view)
+
     def exit(self, result=None, return_code: int = 0, message=None) -> None:
+        try:
+            self.save_view()
+        except Exception:  # a view is never worth an error at quit
+            pass
         self.close_session()
         super().exit(result, return_code, message)
 

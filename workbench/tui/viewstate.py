@@ -64,5 +64,5 @@ def write_view(case_path: str | Path, view: SavedView) -> None:
     try:
         atomic_write(view_path(case_path), (json.dumps(view.as_dict(), ensure_ascii=False, indent=1) + "\n")
                      .encode("utf-8"))
-    except (OSError, Exception):  # a view is never worth an error at quit
+    except Exception:  # a view is never worth an error at quit (a read-only folder, a full disk)
         pass

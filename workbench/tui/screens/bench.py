@@ -117,6 +117,9 @@ class BenchScreen(BenchTools, BenchCharts, Screen):
             note.update(f" columns {safe(describe_mapping(snap.analysis))} — s: setup · esc: hide this line")
         note.display = not getattr(self, "mapping_seen", False)
         m = snap.dataset.m
+        if not getattr(self, "_view_applied", False):  # where the bench was looking when the case was last closed
+            self._view_applied = True
+            self._apply_view(getattr(self.app, "saved_view", None), snap)
         self.cursor = max(0, min(self.cursor, m - 1))
         if self.window is not None and self.window.stop > m:
             self.window = None
@@ -126,6 +129,41 @@ class BenchScreen(BenchTools, BenchCharts, Screen):
         self._show_rows()
         self._update_cursor_views()
         self.request_charts()
+
+    def _apply_view(self, view, snap: Snapshot) -> None:
+        """Put back a saved view (cursor, zoom window, selected signal); labels no longer in the data are
+        passed over and the default view is used for them."""
+        if view is None:
+            return
+        ds = snap.dataset
+        try:
+            self.cursor = ds.index_of(view.cursor)
+        except Exception:
+            return
+        self._newest_said = True  # the saved view, not the newest part of the series
+        if view.window is not None:
+            try:
+                first, last = ds.index_of(view.window[0]), ds.index_of(view.window[1])
+            except Exception:
+                first = last = None
+            if first is not None and first <= self.cursor <= last:
+                self.window, self.auto_window = Window(first, last + 1), False
+        if view.signal is not None:
+            rows = snap.marks.rows[:snap.marks.current]
+            self._row = next((i for i, r in enumerate(rows) if r.key == view.signal), None)
+
+    def current_view(self):
+        """The view to save when the workbench quits (None before anything is shown)."""
+        from workbench.tui.viewstate import SavedView
+        snap = self.snap
+        if snap is None or snap.dataset.m == 0:
+            return None
+        labels = snap.dataset.labels
+        win = None if self.window is None or self.auto_window else (str(labels[self.window.start]),
+                                                                    str(labels[self.window.stop - 1]))
+        row = getattr(self, "_row", None)
+        key = snap.marks.rows[row].key if row is not None and 0 <= row < snap.marks.current else None
+        return SavedView(str(labels[self.cursor]), win, key)
 
     def on_resize(self) -> None:
         self.app.call_after_refresh(self.app.check_size)
