@@ -162,10 +162,23 @@ def cmd_mark(args: argparse.Namespace) -> int:
         return _done(case)
 
 
+MAPPING_ARGS = {"layout": "kind", "subgroup": "subgroup", "stream": "stream", "value": "value", "time": "time"}
+"""``case set`` options that map the data file's columns anew (the names of ``LayoutRequest`` fields)."""
+
+
 def cmd_set(args: argparse.Namespace) -> int:
+    from workbench.core.model import LayoutRequest
     from workbench.options import settings_from_args
     with _open(args) as case:
-        case.record_settings(case.load_dataset(), settings_from_args(args, case.state.settings))
+        settings = settings_from_args(args, case.state.settings)
+        given = {field: getattr(args, arg) for arg, field in MAPPING_ARGS.items() if getattr(args, arg, None)}
+        if getattr(args, "streams", None):
+            given["streams"] = [x.strip() for x in args.streams.split(",") if x.strip()]
+        if not given:
+            case.record_settings(case.load_dataset(), settings)
+            return _done(case)
+        request = LayoutRequest.from_dict({**case.request.as_dict(), **given})
+        case.record_mapping(case.load_dataset(), case.load_dataset(request), request, settings)
         return _done(case)
 
 
@@ -271,8 +284,15 @@ def register(subparsers: Any) -> None:
     p.add_argument("event", nargs="?", type=int, metavar="EVENT",
                    help="the event number in the trail (default: your own last such action)")
     p.add_argument("--reason", required=True, help="why (required)")
-    p = action("set", cmd_set, "change the setup (chart, rules, specification)")
+    p = action("set", cmd_set, "change the setup (chart, rules, specification, column mapping)")
     add_setup_options(p)
+    m = p.add_argument_group("column mapping (recorded in the trail; refused while the limits are frozen)")
+    m.add_argument("--layout", choices=("long", "wide", "individuals"), help="how the file is arranged")
+    m.add_argument("--subgroup", metavar="COL", help="column with the subgroup key")
+    m.add_argument("--stream", metavar="COL", help="long layout: column naming the stream")
+    m.add_argument("--value", metavar="COL", help="column with the reading")
+    m.add_argument("--time", metavar="COL", help="column with a timestamp (rows are sorted by it)")
+    m.add_argument("--streams", metavar="A,B,C", help="wide layout: the stream columns")
     p = action("freeze", cmd_freeze, "freeze the current limits for new data (Phase II)")
     p.add_argument("--force", action="store_true", help="freeze although signals are still open (needs --reason)")
     p.add_argument("--reason", help="why the limits are frozen with open signals (recorded in the trail)")

@@ -104,3 +104,19 @@ def test_a_whole_subgroup_still_answers_every_signal_there(demo, capsys):
     assert set(_trail_answers(CASE)) == {XBAR, R}
     now = states(capsys)  # excluded points leave the rule sequences (README, run rules)
     assert XBAR not in now and R not in now
+
+
+def test_case_set_maps_the_columns_anew_and_verify_recomputes_under_it(demo, capsys):
+    """``case set --streams``: one setup event holding the mapping; the report charts five heads; verify
+    recomputes the recorded limits under the mapping in force at each event (a verify that used the data
+    reference's own mapping would find the limits after the change differ); an unknown column is one line,
+    exit 2, nothing recorded."""
+    code, out, _ = run(capsys, "case", "set", CASE, "--streams", "H1,H2,H3,H4,H5")
+    assert code == 0 and "column mapping: streams H1,H2,H3,H4,H5" in out
+    rep = json.loads(run(capsys, "report", CASE, "--format", "json")[1])
+    assert rep["streams"] == ["H1", "H2", "H3", "H4", "H5"]
+    assert run(capsys, "verify", CASE)[0] == 0
+    size = len(open(CASE, encoding="utf-8").read())
+    code, _, err = run(capsys, "case", "set", CASE, "--streams", "H1,H9")
+    assert code == 2 and "'H9'" in err and len(err.strip().splitlines()) == 1
+    assert len(open(CASE, encoding="utf-8").read()) == size

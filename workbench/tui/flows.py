@@ -10,7 +10,7 @@ from typing import Callable
 
 from textual import work
 
-from workbench.core.model import Exclusion, Settings
+from workbench.core.model import Exclusion, Settings, WorkbenchError
 
 from workbench.tui.dialogs.choice import ChoiceDialog
 from workbench.tui.dialogs.exclude import ExcludeChoice, ExcludeDialog
@@ -221,13 +221,15 @@ class Flows:
             if result is None:
                 return
             new_author = result.author != snap.author
-            if result.settings == snap.state.settings and not new_author:
+            if result.settings == snap.state.settings and not new_author and result.request is None:
                 self.notify("The setup did not change.", timeout=3)
                 return
 
             def run(s: Session) -> Change:
                 if new_author:
                     s.set_author(result.author)
+                if result.request is not None:  # the mapping and any other setup change: one event
+                    return s.change_mapping(result.request, result.settings)
                 if result.settings != s.case.state.settings:
                     return s.change_settings(result.settings)
                 return Change(s.snapshot(), "Author set", (f"actions are now recorded as {safe(result.author)}",))
@@ -236,7 +238,29 @@ class Flows:
 
         from workbench.core.report import describe_mapping
         self.push_screen(SetupDialog(snap.state.settings, snap.author, snap.analysis.chart,
-                                     safe(describe_mapping(snap.analysis))), applied)
+                                     safe(describe_mapping(snap.analysis)), self._mapping_choice()), applied)
+
+    def _mapping_choice(self):
+        """The file's columns and a check that loads the data under a new mapping (None for a database, or
+        when the file cannot be read now)."""
+        from workbench.tui.dialogs.setup import MappingChoice
+        from workbench.tui.session import read_columns
+        session = self.session
+        if session is None or session.case.data.source is not None or not session.case.data_status.usable:
+            return None
+        try:
+            columns, _samples = read_columns(session.case.data_status.path)
+        except Exception:
+            return None
+
+        def check(request) -> str | None:
+            try:
+                session.check_mapping(request)
+            except WorkbenchError as exc:
+                return str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+            return None
+
+        return MappingChoice(self.snapshot.dataset.layout, columns, check)
 
     def settings_flow(self, settings: Settings, words: str) -> None:
         """Record a settings change without a dialog (e.g. the fit view's method switch)."""

@@ -261,6 +261,30 @@ class Session:
         self.analysis = self.case.record_settings(self.dataset, settings)
         return self._limits_change(before, "Setup changed", tuple(settings_changes(old, settings)))
 
+    def change_mapping(self, request: LayoutRequest, settings: Settings | None = None) -> Change:
+        """Map the file's columns differently (one setup event holding the mapping; the data reloaded)."""
+        from workbench.core.case.events import settings_changes
+        from workbench.core.report import describe_mapping
+        before, old = self.analysis, self.case.state.settings
+        request = self._keep(request)
+        new = self.case.load_dataset(request)
+        self.analysis = self.case.record_mapping(self.dataset, new, request, settings)
+        self.dataset = new
+        extra = (f"columns: {describe_mapping(self.analysis)}",) + tuple(settings_changes(old, self.case.state.settings))
+        return self._limits_change(before, "Column mapping changed", extra)
+
+    def check_mapping(self, request: LayoutRequest) -> Dataset:
+        """The data under ``request`` (raises WorkbenchError with the one-line reason it does not load)."""
+        new = self.case.load_dataset(self._keep(request))
+        self.case.check_mapping(new)
+        return new
+
+    def _keep(self, request: LayoutRequest) -> LayoutRequest:
+        """``request`` with what the setup does not map kept as it is (characteristic, skipping bad cells)."""
+        from dataclasses import replace
+        cur = self.case.request
+        return replace(request, characteristic=cur.characteristic, skip_bad=cur.skip_bad)
+
     def freeze(self, reason: str | None = None) -> Change:
         before = self.analysis
         self.analysis = self.case.record_freeze(self.dataset, force=bool(reason), reason=reason)

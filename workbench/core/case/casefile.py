@@ -386,8 +386,13 @@ class Case:
 
     # -- with the data: what the TUI and the CLI call
 
-    def load_dataset(self) -> Dataset:
-        """Load the referenced data with the recorded layout request (path relative to the case file)."""
+    @property
+    def request(self) -> LayoutRequest:
+        """The column mapping in force: the last one set in the setup, else the data reference's."""
+        return self.state.request if self.state.request is not None else self.data.request
+
+    def load_dataset(self, request: LayoutRequest | None = None) -> Dataset:
+        """Load the referenced data with the mapping in force, or ``request`` (path relative to the case file)."""
         from workbench.core.data.reader import load
         self.data_status = check_data(self.data, self.path, self.events)
         if self.data_status.status == "missing":
@@ -396,8 +401,8 @@ class Case:
             self.readonly_reason = self.data_status.message
         if self.data.source is not None:  # read in order of the key a watch recorded, as it judged them
             from workbench.core.phase2.judge import recorded_key
-            return load(dataclasses.replace(self.data.source, key=recorded_key(self)), self.data.request)
-        return load(str(self.data_status.path), self.data.request)
+            return load(dataclasses.replace(self.data.source, key=recorded_key(self)), request or self.request)
+        return load(str(self.data_status.path), request or self.request)
 
     def analyse(self, dataset: Dataset, state: CaseState | None = None) -> Analysis:
         """``analyse()`` with the replayed setup, exclusions and frozen limits (the current state by default)."""
@@ -441,6 +446,41 @@ class Case:
     def record_settings(self, dataset: Dataset, settings: Settings, author: str | None = None) -> Analysis:
         self._check_changed(settings)
         return self._record(dataset, "settings", {"settings": settings.as_dict()}, author)
+
+    def record_mapping(self, dataset: Dataset, new: Dataset, request: LayoutRequest, settings: Settings | None = None,
+                       author: str | None = None) -> Analysis:
+        """Change the column mapping (a ``settings`` event with ``request``): ``dataset`` is the data under the
+        mapping in force, ``new`` under ``request``; the limits before and after are recorded. Refused while
+        the limits are frozen, or while an exclusion names a subgroup or stream the new mapping does not have."""
+        from workbench.core.analysis import analyse, limits_snapshot
+        self._check_writable()
+        request = LayoutRequest.from_dict({**request.as_dict(), **({"characteristic": self.request.characteristic}
+                                                                    if self.request.characteristic else {})})
+        if request == self.request:
+            raise WorkbenchError("the column mapping did not change")
+        self.check_mapping(new)
+        settings = settings or self.state.settings
+        payload = {"settings": settings.as_dict(), "request": request.as_dict()}
+        _ev, state = self._event("settings", payload, author)
+        before = self.analyse(dataset)
+        after = analyse(new, state.settings, state.exclusions, state.frozen)
+        self._append("settings", payload, author, limits_snapshot(before), limits_snapshot(after), int(new.size_bytes))
+        self._cache = (new, self.state.head_hash, after)
+        return after
+
+    def check_mapping(self, new: Dataset) -> None:
+        """Refuse a new column mapping (``new``: the data under it) while the limits are frozen, or while an
+        exclusion names a subgroup or stream it does not have (one line, saying what to do)."""
+        if self.state.frozen is not None:
+            raise WorkbenchError("the limits are frozen: unfreeze them before changing the column mapping")
+        for ex in self.state.exclusions:
+            try:
+                new.index_of(ex.subgroup)
+                if ex.stream is not None:
+                    new.stream_index(ex.stream)
+            except WorkbenchError:
+                raise WorkbenchError(f"the exclusion of {ex.key} names a subgroup or stream this mapping does not "
+                                     "have: restore it first") from None
 
     def open_signal_keys(self, dataset: Dataset) -> list[str]:
         """Keys of the signals still open (answers kept against firing points)."""

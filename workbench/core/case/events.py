@@ -16,9 +16,9 @@ from typing import Any, Iterable, Mapping
 from workbench.core.case.payload import (  # re-exported: these helpers used to live here
     _causes, _is_hash, _keys, _opt_str, _str, default_author, describe,
     describe_trail, exclusion_from_payload, exclusion_order, exclusion_payload, frozen_from_dict, printable,
-    settings_changes, settings_from_dict, utc_now,
+    request_from_payload, settings_changes, settings_from_dict, utc_now,
 )
-from workbench.core.model import Exclusion, FrozenLimits, Settings, SortedExclusions, WorkbenchError
+from workbench.core.model import Exclusion, FrozenLimits, LayoutRequest, Settings, SortedExclusions, WorkbenchError
 
 __all__ = [
     "DEFAULT_CAUSES", "EVENT_KINDS", "FORMAT", "LIMIT_EVENTS", "MARKS", "NOTE_KINDS", "VERSION", "CaseState",
@@ -205,6 +205,9 @@ class CaseState:
     mark_log: tuple = field(default=(), repr=False, compare=False)
     """Every mark in force, in trail order: (signal key, SignalState) — answers are per firing point, so
     a later mark of another key can answer some of the same points."""
+    request: LayoutRequest | None = None
+    """The column mapping set in the setup (a ``settings`` event with ``request``), or None: the data
+    reference's own (``data.request``)."""
 
     def signal_state(self, key: str) -> str:
         """open | explained | no-cause-found | excluded (an exclusion answers it)."""
@@ -235,6 +238,7 @@ class _Builder:
     order: tuple[list, list] | None = None
     """(exclusion_order keys, Exclusions) kept sorted as exclusions come and go (None: sort at the next state)."""
     mark_log: list = field(default_factory=list)
+    request: LayoutRequest | None = None
 
     @classmethod
     def of(cls, s: CaseState) -> "_Builder":
@@ -244,7 +248,7 @@ class _Builder:
                    dict(targets) if targets is not None else {e.key: e for e in s.exclusions}, list(s.notes),
                    dict(s.signal_states), s.frozen, s.causes, s.first_limits, s.limits, s.head_hash, s.seq,
                    s.created_by, s.created_time, dict(s.seen) if s.seen else None, dict(s.retracted), list(s.trail),
-                   (list(order[0]), list(order[1])) if order is not None else None, list(s.mark_log))
+                   (list(order[0]), list(order[1])) if order is not None else None, list(s.mark_log), s.request)
 
     def state(self) -> CaseState:
         if self.order is None or len(self.order[0]) != len(self.targets):
@@ -253,7 +257,7 @@ class _Builder:
         st = CaseState(self.settings, SortedExclusions(self.order[1]), dict(self.info),
                        tuple(self.notes), dict(self.marks), self.frozen, tuple(self.causes), self.first_limits,
                        self.limits, self.head, self.seq, self.created_by, self.created_time, self.seen,
-                       dict(self.retracted), tuple(self.trail), tuple(self.mark_log))
+                       dict(self.retracted), tuple(self.trail), tuple(self.mark_log), self.request)
         # what of() needs to go on from this state without a Python-level pass over the exclusions
         object.__setattr__(st, "_targets", dict(self.targets))
         object.__setattr__(st, "_order", (list(self.order[0]), list(self.order[1])))
@@ -290,9 +294,12 @@ class _Builder:
             self.created_by, self.created_time = ev.author, ev.time
         elif k == "settings":
             new = settings_from_dict(p.get("settings"), where)
-            if new == self.settings:
+            request = request_from_payload(p["request"], where) if "request" in p else self.request
+            if new == self.settings and request == self.request:
                 raise WorkbenchError(f"{where}: the setup did not change")
-            self.settings = new
+            if request != self.request and self.frozen is not None:
+                raise WorkbenchError(f"{where}: the column mapping cannot change while the limits are frozen")
+            self.settings, self.request = new, request
         elif k == "causes":
             self.causes = _causes(p.get("causes"), where)
         elif k in ("exclude", "restore"):
@@ -472,7 +479,7 @@ def range_from_payload(p: Mapping[str, Any], where: str) -> dict | None:
 
 _PAYLOAD_KEYS = {
     "created": ({"settings", "causes", "data_ref"}, set()),
-    "settings": ({"settings"}, set()),
+    "settings": ({"settings"}, {"request"}),
     "causes": ({"causes"}, set()),
     "exclude": ({"subgroup", "reason"}, {"stream", "cause", "signal", "range", "answers"}),
     "restore": ({"subgroup", "reason"}, {"stream", "range"}),

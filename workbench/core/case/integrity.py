@@ -14,7 +14,7 @@ from workbench.core.case.events import CaseState, Event, _Builder
 from workbench.core.case.format import (
     DataStatus, Document, build, canonical_json, chain_break, check_data, jsonable, read_bytes, read_json, render,
 )
-from workbench.core.model import Dataset, WorkbenchError
+from workbench.core.model import Dataset, LayoutRequest, WorkbenchError
 
 
 @dataclass(frozen=True)
@@ -106,33 +106,36 @@ def verify(path: str | Path, recompute: bool = True, expect_head: str | None = N
 def _recompute_limits(doc: Document, status: DataStatus) -> list[str]:
     from workbench.core.analysis import analyse, limits_snapshot
     from workbench.core.data.reader import load
-    datasets: dict[int, Dataset] = {}
+    datasets: dict[tuple, Dataset] = {}
     snaps: dict[tuple, dict] = {}
 
-    def dataset_for(nbytes: int) -> Dataset:
-        if nbytes not in datasets:
+    def dataset_for(nbytes: int, request: LayoutRequest) -> Dataset:
+        """The data as an event saw them: its bytes (or rows), under the column mapping in force then."""
+        key = (nbytes, canonical_json(request.as_dict()))
+        if key not in datasets:
             if doc.data.source is not None and (nbytes == status.size_bytes or not doc.data.source.aggregate):
                 # a database: its rows read again (the first rows of that size, in the watch's key order)
                 from workbench.core.phase2.judge import recorded_key
                 from workbench.core.phase2.sqlfollow import load_rows_prefix
                 src = dataclasses.replace(doc.data.source, key=recorded_key(doc))
-                datasets[nbytes] = load(src, doc.data.request) if src.aggregate else \
-                    load_rows_prefix(src, doc.data.request, None if nbytes == status.size_bytes else nbytes)
+                datasets[key] = load(src, request) if src.aggregate else \
+                    load_rows_prefix(src, request, None if nbytes == status.size_bytes else nbytes)
             elif nbytes == status.size_bytes:
-                datasets[nbytes] = load(str(status.path), doc.data.request)
+                datasets[key] = load(str(status.path), request)
             elif nbytes > (status.size_bytes or 0):
                 raise WorkbenchError(f"it was computed on {nbytes} bytes of data; the file now has {status.size_bytes}")
             else:
                 with tempfile.TemporaryDirectory() as tmp, open(status.path, "rb") as src:
                     prefix = Path(tmp) / status.path.name
                     prefix.write_bytes(src.read(nbytes))
-                    datasets[nbytes] = load(str(prefix), doc.data.request)
-        return datasets[nbytes]
+                    datasets[key] = load(str(prefix), request)
+        return datasets[key]
 
     def snapshot(nbytes: int, st: CaseState) -> dict:
         key = (nbytes, st.seq)  # the state after event seq: O(1) to name, however many exclusions it holds
         if key not in snaps:
-            snaps[key] = jsonable(limits_snapshot(analyse(dataset_for(nbytes), st.settings, st.exclusions, st.frozen)))
+            ds = dataset_for(nbytes, st.request if st.request is not None else doc.data.request)
+            snaps[key] = jsonable(limits_snapshot(analyse(ds, st.settings, st.exclusions, st.frozen)))
         return snaps[key]
 
     problems: list[str] = []

@@ -17,7 +17,9 @@ from datetime import datetime, timezone
 from typing import Any, Iterable, Mapping, Protocol
 
 from workbench.core.text import printable
-from workbench.core.model import CHART_KINDS, SIGMA_METHODS, Exclusion, FrozenLimits, Settings, Spec, WorkbenchError
+from workbench.core.model import (
+    CHART_KINDS, SIGMA_METHODS, Exclusion, FrozenLimits, LayoutRequest, Settings, Spec, WorkbenchError,
+)
 
 
 
@@ -37,6 +39,36 @@ def exclusion_order(ex: Exclusion) -> tuple[str, bool, str]:
 
 def exclusion_payload(target: Exclusion) -> dict[str, Any]:
     return {"subgroup": target.subgroup, "stream": target.stream}
+
+
+REQUEST_TEXT = ("kind", "subgroup", "stream", "value", "time", "count", "size", "characteristic")
+"""Column-mapping fields that name a column (or the layout kind)."""
+
+
+def request_from_payload(d: Any, where: str) -> LayoutRequest:
+    """The column mapping of a ``settings`` event (the fields of a layout request; every one optional)."""
+    if not isinstance(d, Mapping):
+        raise WorkbenchError(f"{where}: request must be an object")
+    extra = sorted(set(d) - set(REQUEST_TEXT) - {"streams", "skip_bad"})
+    if extra:
+        raise WorkbenchError(f"{where}: request: unknown field {extra[0]!r}")
+    for name in REQUEST_TEXT:
+        if name in d:
+            _str(d[name], where, f"request {name}", empty=False)
+    streams = d.get("streams", [])
+    if not isinstance(streams, list) or not all(isinstance(x, str) and x for x in streams):
+        raise WorkbenchError(f"{where}: request streams must be a list of column names")
+    if "skip_bad" in d and not isinstance(d["skip_bad"], bool):
+        raise WorkbenchError(f"{where}: request skip_bad must be true or false")
+    return LayoutRequest.from_dict(dict(d))
+
+
+def request_words(d: Mapping[str, Any]) -> str:
+    """A column mapping in words: ``kind wide, subgroup time, streams H1,H2,H3``."""
+    parts = [f"{k} {d[k]}" for k in REQUEST_TEXT if d.get(k)]
+    if d.get("streams"):
+        parts.append("streams " + ",".join(d["streams"]))
+    return ", ".join(parts) or "detected from the file"
 
 
 def exclusion_from_payload(p: Mapping[str, Any], where: str) -> Exclusion:
@@ -176,7 +208,8 @@ def describe(ev: Event) -> str:
     if ev.kind == "retract":
         return f"retracted event {p['event']}: {q(p['reason'])}"
     if ev.kind == "settings":
-        return "setup changed"
+        req = p.get("request")
+        return "setup changed" + (f" (column mapping: {q(request_words(req))})" if isinstance(req, Mapping) else "")
     if ev.kind == "causes":
         return "cause list set to " + ", ".join(q(c) for c in p["causes"])
     if ev.kind == "freeze":
@@ -222,7 +255,9 @@ def describe_trail(events: Iterable[Event]) -> list[str]:
         if ev.kind in ("created", "settings"):
             new = Settings.from_dict(ev.payload["settings"])
             if current is not None:
-                line += ": " + ("; ".join(printable(c) for c in settings_changes(current, new)) or "no field changed")
+                changes = [printable(c) for c in settings_changes(current, new)]
+                if changes or not isinstance(ev.payload.get("request"), Mapping):
+                    line += ": " + ("; ".join(changes) or "no field changed")
             current = new
         out.append(line)
     return out

@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
+from typing import Callable
 
 from rich.text import Text
 from textual import on
@@ -12,7 +13,8 @@ from textual.screen import ModalScreen
 from textual.widgets import Button, Input, Label, Select, Static
 
 from workbench.core.charts import rules as R
-from workbench.core.model import CHART_KINDS, SIGMA_METHODS, Settings, Spec, WorkbenchError
+from workbench.core.model import CHART_KINDS, SIGMA_METHODS, Layout, LayoutRequest, Settings, Spec, WorkbenchError
+from workbench.tui.view import safe
 
 RULE_SETS = ("western-electric", "nelson", "limits-only")
 CAP_METHODS = ("auto", "normal", "box-cox", "percentile")
@@ -23,6 +25,26 @@ CUSTOM = "custom"
 class SetupResult:
     settings: Settings
     author: str
+    request: LayoutRequest | None = None
+    """A new column mapping (None: the mapping stays as it is)."""
+
+
+MAPPED_KINDS = ("long", "wide", "individuals")
+"""Layouts whose columns the setup can map (summary and count data keep the mapping they were opened with)."""
+NONE = ""
+"""The blank choice of a column select: no such column."""
+
+
+@dataclass(frozen=True)
+class MappingChoice:
+    """What the setup needs to offer a new column mapping."""
+
+    layout: Layout
+    """The mapping in force."""
+    columns: tuple[str, ...]
+    """The file's column names."""
+    check: Callable[[LayoutRequest], str | None]
+    """Loads the data under a mapping; the one-line reason it does not load, or None."""
 
 
 def _num(text: str, name: str) -> float | None:
@@ -59,11 +81,14 @@ class SetupDialog(ModalScreen[SetupResult | None]):
     BINDINGS = [Binding("escape,q", "cancel", "Cancel", id="dialog-cancel"),
                 Binding("ctrl+s", "apply", "Apply", id="dialog-apply")]
 
-    def __init__(self, settings: Settings, author: str, resolved_chart: str, mapping: str = "") -> None:
+    def __init__(self, settings: Settings, author: str, resolved_chart: str, mapping: str = "",
+                 choice: MappingChoice | None = None) -> None:
         super().__init__(classes="dialog-screen")
         self.settings, self.author, self.resolved = settings, author, resolved_chart
         self.mapping = mapping
-        """The column mapping in words (shown; it is part of the case's data reference)."""
+        """The column mapping in words."""
+        self.choice = choice if choice is not None and choice.layout.kind in MAPPED_KINDS and choice.columns else None
+        """The columns that can be mapped anew (None: the mapping is shown, not changed here)."""
 
     def compose(self) -> ComposeResult:
         s, spec = self.settings, self.settings.spec or Spec()
@@ -72,10 +97,12 @@ class SetupDialog(ModalScreen[SetupResult | None]):
         text = lambda v: "" if v is None else f"{v:g}"  # noqa: E731
         with Vertical(classes="dialog wide-dialog"):
             yield Static(Text("Setup", style="bold"), classes="dialog-title")
-            if self.mapping:
-                yield Static(Text(f"Columns: {self.mapping} (fixed for this case: to map them differently, open the "
-                                  "data file again with --subgroup / --streams / --value)"), id="setup-mapping",
-                             classes="dialog-prompt")
+            if self.mapping and self.choice is None:
+                yield Static(Text(f"Columns: {self.mapping} (summary and count data keep the mapping they were "
+                                  "opened with)"), id="setup-mapping", classes="dialog-prompt")
+            elif self.mapping:
+                yield Static(Text(f"Columns: {self.mapping} — map them differently at the end of this form"),
+                             id="setup-mapping", classes="dialog-prompt")
             with VerticalScroll(classes="setup-fields"):
                 with Grid(classes="setup-grid"):
                     yield Label(f"Chart kind (now {self.resolved})")
@@ -109,6 +136,25 @@ class SetupDialog(ModalScreen[SetupResult | None]):
                     yield Select([(k, k) for k in CAP_METHODS], value=spec.method, allow_blank=False, id="method")
                     yield Label("Author")
                     yield Input(value=self.author, id="author")
+                if self.choice is not None:
+                    lay, cols = self.choice.layout, self.choice.columns
+                    pick = lambda v: v if v in cols else NONE  # noqa: E731
+                    options = [(Text("(none)"), NONE)] + [(Text(safe(c)), c) for c in cols]
+                    yield Static(Text("Columns of the data file", style="bold"))
+                    with Grid(classes="setup-grid", id="mapping-grid"):
+                        yield Label("Layout")
+                        yield Select([(k, k) for k in MAPPED_KINDS], value=lay.kind, allow_blank=False,
+                                     id="map-kind")
+                        yield Label("Subgroup column")
+                        yield Select(options, value=pick(lay.subgroup), allow_blank=False, id="map-subgroup")
+                        yield Label("Stream column (long)")
+                        yield Select(options, value=pick(lay.stream), allow_blank=False, id="map-stream")
+                        yield Label("Value column (long, individuals)")
+                        yield Select(options, value=pick(lay.value), allow_blank=False, id="map-value")
+                        yield Label("Time column")
+                        yield Select(options, value=pick(lay.time), allow_blank=False, id="map-time")
+                        yield Label("Stream columns (wide)")
+                        yield Input(value=",".join(lay.streams), id="map-streams", placeholder="e.g. H1,H2,H3")
             yield Label("", id="error", classes="dialog-error", markup=False)
             with Horizontal(classes="dialog-buttons"):
                 yield Button("Apply", variant="primary", id="confirm")
@@ -150,7 +196,34 @@ class SetupDialog(ModalScreen[SetupResult | None]):
                            sigma=str(self.query_one("#sigma", Select).value),
                            rules=self.settings.rules if rules == current else rules, spec=spec,
                            name=val("name").strip() or None, unit=val("unit").strip() or None)
-        return SetupResult(settings, author)
+        return SetupResult(settings, author, self._request())
+
+    def _request(self) -> LayoutRequest | None:
+        """The column mapping the fields describe, when it differs from the one in force (checked by loading
+        the data: raises WorkbenchError with the one-line reason it does not load)."""
+        if self.choice is None:
+            return None
+        lay = self.choice.layout
+        col = lambda wid: (lambda v: v if isinstance(v, str) and v else None)(  # noqa: E731
+            self.query_one(f"#map-{wid}", Select).value)
+        kind = str(self.query_one("#map-kind", Select).value)
+        streams = tuple(x.strip() for x in self.query_one("#map-streams", Input).value.split(",") if x.strip())
+        fields = {"subgroup": col("subgroup"), "time": col("time")}
+        if kind == "long":
+            fields.update(stream=col("stream"), value=col("value"))
+        elif kind == "individuals":
+            fields.update(value=col("value"))
+        else:
+            fields.update(streams=streams)
+        now = {"subgroup": lay.subgroup, "time": lay.time, "stream": lay.stream, "value": lay.value,
+               "streams": tuple(lay.streams)}
+        if kind == lay.kind and all(now[k] == v for k, v in fields.items()):
+            return None
+        request = LayoutRequest(kind=kind, **fields)
+        why = self.choice.check(request)
+        if why:
+            raise WorkbenchError(f"columns: {why}")
+        return request
 
     @on(Button.Pressed, "#confirm")
     def action_apply(self) -> None:

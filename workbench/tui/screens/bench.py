@@ -112,9 +112,13 @@ class BenchScreen(BenchTools, BenchCharts, Screen):
     def show_snapshot(self, snap: Snapshot) -> None:
         self.snap = snap
         note = self.query_one("#mapping-note", Static)
+        from workbench.core.report import describe_mapping
+        words = describe_mapping(snap.analysis)
+        if words != getattr(self, "_mapping_words", words):
+            self.mapping_seen = False  # a new mapping (set in the setup) is news: the line shows again
+        self._mapping_words = words
         if not getattr(self, "mapping_seen", False):
-            from workbench.core.report import describe_mapping
-            note.update(f" columns {safe(describe_mapping(snap.analysis))} — s: setup · esc: hide this line")
+            note.update(f" columns {safe(words)} — s: setup · esc: hide this line")
         note.display = not getattr(self, "mapping_seen", False)
         m = snap.dataset.m
         if not getattr(self, "_view_applied", False):  # where the bench was looking when the case was last closed
