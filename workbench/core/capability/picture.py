@@ -139,8 +139,24 @@ def spec_strip(cap, width: int = 80, unit: str | None = None, lo_hi: tuple[float
     return "\n".join((f"{name:<{label_w}}" + "".join(r)).rstrip() for name, r in rows)
 
 
-def strip_legend(cap) -> str:
-    """One line naming the glyphs of the strip."""
+def wrap_parts(parts: list[str], width: int | None) -> str:
+    """``parts`` joined by two spaces, on as many lines of ``width`` as it takes: a line breaks between parts,
+    never inside one (a legend is never cut)."""
+    if width is None:
+        return "  ".join(parts)
+    lines, line = [], ""
+    for part in parts:
+        if line and len(line) + 2 + len(part) > width:
+            lines.append(line)
+            line = part
+        else:
+            line = f"{line}  {part}" if line else part
+    lines.append(line)
+    return "\n".join(lines)
+
+
+def strip_legend(cap, width: int | None = None) -> str:
+    """The glyphs of the strip in words (wrapped between whole parts to ``width``)."""
     parts = [f"{SPEC} specification"]
     b = bands(cap)
     if "within" in b:
@@ -151,7 +167,7 @@ def strip_legend(cap) -> str:
     parts.append(f"{BEYOND} beyond a limit")
     if cap.lsl is None or cap.usl is None:
         parts.append(f"{OUTSIDE} no limit")
-    return "  ".join(parts)
+    return wrap_parts(parts, width)
 
 
 def plotting_positions(readings, step: float | None = None) -> tuple[np.ndarray, np.ndarray]:
@@ -243,5 +259,5 @@ def quantile_plot(cap, readings, width: int = 80, height: int = 12, unit: str | 
     _place(edge, cols - 1, right, "right")
     lines.append(" " * label_w + "".join(under).rstrip())
     lines.append(" " * label_w + "".join(edge).rstrip())
-    lines.append(f"{POINT} readings  {LINE} {model_name(cap)} model  (normal-probability axis)")
-    return "\n".join(line.rstrip()[:width] for line in lines)
+    legend = wrap_parts([f"{POINT} readings", f"{LINE} {model_name(cap)} model", "(normal-probability axis)"], width)
+    return "\n".join([line.rstrip()[:width] for line in lines] + legend.split("\n"))

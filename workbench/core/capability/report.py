@@ -124,7 +124,7 @@ def pictures(cap: Capability, readings=None, width: int = 80, unit: str | None =
     if readings is not None and len(readings) and cap.sigma_overall > 0:
         step = cap.resolution.step if cap.resolution is not None and cap.resolution.rounded else None
         plot = quantile_plot(cap, readings, width, plot_height, unit, lo_hi, step)
-    return strip, strip_legend(cap)[:width], plot
+    return strip, strip_legend(cap, width), plot
 
 
 def title(name: str | None = None, unit: str | None = None) -> str:
