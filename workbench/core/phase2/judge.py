@@ -373,7 +373,7 @@ class Watch:
         from workbench.core.phase2.sqlfollow import SqlFollower
         src = dataclasses.replace(case.data.source, key=watch_key(case, key))
         marks = [(j.rows, j.sha256, j.seq) for j in judged_prefixes(case.data, case.events) if j.rows is not None]
-        follower = SqlFollower.open(src, case.data.request, hold_from=frozen.subgroups, marks=marks)
+        follower = SqlFollower.open(src, case.request, hold_from=frozen.subgroups, marks=marks)
         got, want = follower.dataset.layout.as_dict(), case.data.layout.as_dict()
         got.pop("detected", None), want.pop("detected", None)
         if got != want:
