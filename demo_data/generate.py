@@ -35,6 +35,17 @@ OPERATORS = ("A. Reyes", "T. Brandt", "K. Osei")  # invented crews, one per shif
 DRIFT_FIRST, DRIFT_FULL, DRIFT_LAST, DRIFT_SIZE = 16, 27, 35, 1.5  # H4 nozzle change
 STEP_FIRST, STEP_LAST, STEP_SIZE = 104, 119, 0.6  # new concentrate lot, all heads
 MISKEY_AT, MISKEY_HEAD, MISKEY_INTENDED, MISKEY_RECORDED = 134, "H2", 500.6, 509.6
+# Context columns (the log beside the readings).  The concentrate lot changes to L-2292 with the step and the
+# nozzle service log records the H4 nozzle swap and re-seat (the drift): both line up with planted causes.
+# The earlier lot change (L-2290 -> L-2291 during the night), the shift, the label roll and the checker who
+# took the sample line up with none.  Drawn from their own generator, so the fills are those of before.
+LOTS = ((0, "L-2290"), (60, "L-2291"), (STEP_FIRST, "L-2292"))
+SERVICE = ((0, "PM 2026-02-27"), (DRIFT_FIRST, "H4 nozzle swap 09:50"), (DRIFT_LAST + 1, "H4 nozzle re-seated 14:55"))
+LABEL_ROLLS = ((0, "R-7101"), (10, "R-7102"), (40, "R-7103"), (64, "R-7104"), (92, "R-7105"), (124, "R-7106"))
+CHECKERS = ("J. Lind", "M. Ito", "S. Park")  # invented; whoever was free took the sample
+NOZZLE_IDS = ("N-311", "N-312", "N-313", "N-314", "N-315", "N-316")
+NEW_H4_NOZZLE = "N-402"
+CONTEXT = ("concentrate_lot", "shift", "operator", "nozzle_service", "label_roll", "checker")
 
 PH_START, PH_DAYS, PH_MEAN, PH_SD = date(2026, 1, 5), 60, 7.20, 0.06
 PH_SHIFT_FIRST, PH_SHIFT_SIZE = 44, 0.15  # softener cartridge change
@@ -73,6 +84,31 @@ def filler() -> tuple[list[str], np.ndarray, list[str]]:
     fills[MISKEY_AT, HEADS.index(MISKEY_HEAD)] = MISKEY_RECORDED
     operators = [OPERATORS[min(j // 48, 2)] for j in range(m)]
     return [_stamp(j) for j in range(m)], fills, operators
+
+
+def _from(steps: tuple, i: int) -> str:
+    """The value in force at subgroup ``i`` of a log of (first subgroup, value) steps."""
+    return [v for start, v in steps if start <= i][-1]
+
+
+def context() -> dict[str, list[str]]:
+    """The filler's context columns, one value a subgroup (see CONTEXT)."""
+    rng = np.random.default_rng([SEED, 1, 1000])
+    m = FILL_SUBGROUPS
+    checker = rng.integers(0, len(CHECKERS), size=m)
+    return {
+        "concentrate_lot": [_from(LOTS, i) for i in range(m)],
+        "shift": ["night" if 48 <= i < 96 else "day" for i in range(m)],
+        "operator": [OPERATORS[min(i // 48, 2)] for i in range(m)],
+        "nozzle_service": [_from(SERVICE, i) for i in range(m)],
+        "label_roll": [_from(LABEL_ROLLS, i) for i in range(m)],
+        "checker": [CHECKERS[c] for c in checker],
+    }
+
+
+def nozzle_id(i: int, head: int) -> str:
+    """The nozzle fitted on a head at subgroup ``i`` (H4's was swapped at 09:50 on the first day)."""
+    return NEW_H4_NOZZLE if head == HEADS.index("H4") and i >= DRIFT_FIRST else NOZZLE_IDS[head]
 
 
 def tank_ph() -> tuple[list[str], np.ndarray]:
@@ -133,11 +169,17 @@ def write_all(out: Path) -> list[Path]:
     """Write every demo file into ``out``; returns the paths written."""
     out.mkdir(parents=True, exist_ok=True)
     stamps, fills, operators = filler()
+    ctx = context()
+    assert ctx["operator"] == operators
+    cells = [[ctx[c][i] for c in CONTEXT] for i in range(len(stamps))]
+    rest = [c for c in CONTEXT if c != "operator"]
     written = [
-        _write(out / "filler_line3.csv", "time," + ",".join(HEADS),
-               [s + "," + ",".join(f"{v:.1f}" for v in row) for s, row in zip(stamps, fills)]),
-        _write(out / "filler_line3_long.csv", "time,head,fill_ml,operator",
-               [f"{s},{h},{v:.1f},{op}" for s, row, op in zip(stamps, fills, operators) for h, v in zip(HEADS, row)]),
+        _write(out / "filler_line3.csv", "time," + ",".join(HEADS) + "," + ",".join(CONTEXT),
+               [s + "," + ",".join(f"{v:.1f}" for v in row) + "," + ",".join(c)
+                for s, row, c in zip(stamps, fills, cells)]),
+        _write(out / "filler_line3_long.csv", "time,head,fill_ml,operator," + ",".join(rest) + ",nozzle_id",
+               [f"{s},{h},{v:.1f},{ctx['operator'][i]}," + ",".join(ctx[c][i] for c in rest) + f",{nozzle_id(i, j)}"
+                for i, (s, row) in enumerate(zip(stamps, fills)) for j, (h, v) in enumerate(zip(HEADS, row))]),
     ]
     days, ph = tank_ph()
     written.append(_write(out / "tank_ph.csv", "date,ph", [f"{d},{v:.2f}" for d, v in zip(days, ph)]))

@@ -16,6 +16,8 @@ VARIABLE_CHARTS = ("xbar-r", "xbar-s", "imr")
 ATTRIBUTE_CHARTS = ("p", "np", "c", "u")
 SMALL_SHIFT_CHARTS = ("ewma", "cusum")
 CHART_KINDS = VARIABLE_CHARTS + ATTRIBUTE_CHARTS + SMALL_SHIFT_CHARTS
+CONTEXT_JOIN = " | "
+"""How the set of values of a context column that varies inside a subgroup is shown."""
 SIGMA_METHODS = ("auto", "rbar", "sbar", "pooled", "pooled-sbar", "mrbar", "known")
 SIGMA_METHOD_LABELS = {
     "rbar": "rbar/d2",
@@ -152,7 +154,12 @@ class Dataset:
     times: np.ndarray | None = None
     """Optional timestamps per subgroup (numpy datetime64) when a time column exists."""
     extras: dict[str, np.ndarray] = field(default_factory=dict)
-    """Extra columns kept for display: name -> per-subgroup array of str (first row of the subgroup)."""
+    """Context columns (every column the layout does not use: lot, operator, shift, …): name -> per-subgroup
+    array of str.  Where a column's value varies inside a subgroup the entry is the display form of its set of
+    values, the distinct values in first-seen order joined by ``CONTEXT_JOIN`` (``L-2291 | L-2292``)."""
+    extra_sets: dict[str, dict[int, tuple[str, ...]]] = field(default_factory=dict)
+    """Context columns whose value varies inside a subgroup: name -> {subgroup position: the distinct values
+    in first-seen order}; a subgroup absent here has the one value in ``extras``."""
     missing: int = 0
     """Number of empty cells skipped."""
     skipped_bad: int = 0
@@ -185,6 +192,11 @@ class Dataset:
     @property
     def is_attribute(self) -> bool:
         return self.counts is not None
+
+    def context_values(self, name: str, p: int) -> tuple[str, ...]:
+        """The values of context column ``name`` in subgroup ``p`` (distinct, in first-seen order)."""
+        found = self.extra_sets.get(name, {}).get(int(p))
+        return found if found is not None else (str(self.extras[name][p]),)
 
     def index_of(self, label: str) -> int:
         """Position of a subgroup label; raises WorkbenchError when unknown."""

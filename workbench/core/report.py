@@ -126,7 +126,11 @@ def report_json(a: Analysis, states: dict | None = None, with_values: bool = Fal
         "notices": list(ds.notices),
         "capability": None,
         "streams_comparison": None,
+        "context": None,
     }
+    from workbench.core.context import report as CX
+    CX.add_leads(a, out["signals"])
+    out["context"] = CX.context_json(a)
     if with_values:
         out["labels"] = [str(x) for x in ds.labels.tolist()]
     if a.phase2_start is not None:
@@ -215,6 +219,9 @@ def report_text(a: Analysis, states: dict | None = None, width: int = 100) -> st
         L.append(f"warning   {_p(w)}")
     L.append("")
     L.append(f"signals   {len(a.signals)}")
+    from workbench.core.context import report as CX
+    from workbench.core.context.ranking import context_of
+    ranking = context_of(a)
     for i, s in enumerate(a.signals[:MAX_TEXT_SIGNALS]):
         st = ""
         if states is not None:
@@ -222,6 +229,7 @@ def report_text(a: Analysis, states: dict | None = None, width: int = 100) -> st
         span = ds.labels[s.first] if s.first == s.last else f"{ds.labels[s.first]} … {ds.labels[s.last]}"
         L.append(f"  {s.chart:<5} {s.rule:<14} {_p(span)}  — {s.description}{st}")
         L.extend(_shape_lines(a, i))
+        L.extend(CX.signal_text_lines(a, s.first, ranking))
     if len(a.signals) > MAX_TEXT_SIGNALS:
         L.append(f"  … {len(a.signals) - MAX_TEXT_SIGNALS} more (use --format json for all)")
     if a.signals:
@@ -242,6 +250,7 @@ def report_text(a: Analysis, states: dict | None = None, width: int = 100) -> st
         L.append(f"          ANOVA F {fmt(cmp_.anova_f)} p {fmt(cmp_.anova_p)}; Kruskal–Wallis H "
                  f"{fmt(cmp_.kruskal_h)} p {fmt(cmp_.kruskal_p)}")
         L.append(f"          {_p(cmp_.advice)}")
+    L.extend(CX.text_lines(a))
     from workbench.core.analysis import capability_for
     cap = capability_for(a, states)
     if cap is not None:
@@ -337,6 +346,8 @@ def report_markdown(a: Analysis, states: dict | None = None) -> str:
             L.append(f"| {esc(s)} | {fmt(m)} | {fmt(sd)} | {n} |")
         L += ["", f"One-way ANOVA F = {fmt(cmp_.anova_f)}, p = {fmt(cmp_.anova_p)}; Kruskal–Wallis H = "
                   f"{fmt(cmp_.kruskal_h)}, p = {fmt(cmp_.kruskal_p)}.", "", esc(cmp_.advice)]
+    from workbench.core.context import report as CX
+    L += CX.markdown_lines(a)
     from workbench.core.analysis import capability_for
     cap = capability_for(a, states)
     if cap is not None:

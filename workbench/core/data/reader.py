@@ -443,16 +443,28 @@ class _Builder:
     def order(self, a: np.ndarray) -> np.ndarray:
         return a if self.perm is None else a[self.perm]
 
-    def extras(self, rows: np.ndarray | None = None) -> dict[str, np.ndarray]:
+    def extras(self, sg: np.ndarray | None = None, first: np.ndarray | None = None) -> dict:
+        """The context columns per subgroup: ``extras`` and ``extra_sets`` of the Dataset.
+
+        One row a subgroup: each row's text.  Long data (``sg``: each ordered row's subgroup code,
+        ``first``: each subgroup's first row): the first row's text, and where a column varies inside a
+        subgroup its distinct values in first-seen order (:func:`workbench.core.data.context.sets`)."""
+        from workbench.core.data.context import sets
         lay = self.lay
         used = {lay.subgroup, lay.time, lay.stream, lay.value, lay.n, lay.mean, lay.range, lay.sd,
                 lay.count, lay.size, *lay.streams}
-        out = {}
+        out, varying = {}, {}
         for c in self.t.frame.columns:
-            if c not in used:
-                txt = self.order(sniff.as_text(self.t, c))
-                out[c] = txt if rows is None else txt[rows]
-        return out
+            if c in used:
+                continue
+            txt = self.order(sniff.as_text(self.t, c))
+            if sg is None:
+                out[c] = txt
+                continue
+            out[c], found = sets(txt, sg, first)
+            if found:
+                varying[c] = found
+        return {"extras": out, "extra_sets": varying}
 
     def row_labels(self) -> np.ndarray:
         key = self.lay.subgroup
@@ -486,7 +498,7 @@ class _Builder:
         lay = self.lay
         labels = self.row_labels()
         times = None if self.times is None else self.order(self.times)
-        base = dict(labels=self.order(labels), times=times, extras=self.extras())
+        base = dict(labels=self.order(labels), times=times, **self.extras())
         if lay.count:
             counts, sizes = self.attribute()
             return dict(base, streams=(lay.count,), values=None, counts=self.order(counts)[:, None],
@@ -511,7 +523,7 @@ class _Builder:
             stats["summary_" + name] = None if v is None else self.order(v)
         times = None if self.times is None else self.order(self.times)
         return dict(labels=self.order(labels), streams=(lay.mean,), values=None, times=times,
-                    summary_n=self.order(n).astype(np.int64), extras=self.extras(), **stats)
+                    summary_n=self.order(n).astype(np.int64), **self.extras(), **stats)
 
     def attribute(self) -> tuple[np.ndarray, np.ndarray | None]:
         lay = self.lay
@@ -586,4 +598,4 @@ class _Builder:
         if lay.count:
             parts["values"] = None
         return dict(parts, labels=np.asarray(labels, dtype=str), streams=tuple(str(x) for x in streams),
-                    times=times, extras=self.extras(first))
+                    times=times, **self.extras(sg, first))

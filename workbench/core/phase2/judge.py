@@ -106,7 +106,7 @@ def _slice(ds: Dataset, start: int) -> Dataset:
     return dataclasses.replace(
         ds, labels=ds.labels[start:], values=cut(ds.values), summary_n=cut(ds.summary_n),
         summary_mean=cut(ds.summary_mean), summary_range=cut(ds.summary_range), summary_sd=cut(ds.summary_sd),
-        times=cut(ds.times), extras={})
+        times=cut(ds.times), extras={}, extra_sets={})
 
 
 def _extend_group(g: Group, rule: R.Rule, f: R.Firing, new: np.ndarray, s: int, labels: np.ndarray) -> Group:

@@ -247,7 +247,8 @@ def _head(ds: Dataset, stop: int) -> Dataset:
     return dataclasses.replace(
         ds, labels=cut(ds.labels), values=cut(ds.values), summary_n=cut(ds.summary_n),
         summary_mean=cut(ds.summary_mean), summary_range=cut(ds.summary_range), summary_sd=cut(ds.summary_sd),
-        times=cut(ds.times), extras={k: cut(v) for k, v in ds.extras.items()})
+        times=cut(ds.times), extras={k: cut(v) for k, v in ds.extras.items()},
+        extra_sets={k: {p: v for p, v in d.items() if p < stop} for k, d in ds.extra_sets.items()})
 
 
 def _append(ds: Dataset, ch: Dataset, labels, values, times, extras, rows: int) -> Dataset:
