@@ -110,7 +110,7 @@ def bh_adjust(p: np.ndarray) -> np.ndarray:
     return out
 
 
-def statistic(a: Analysis) -> tuple[np.ndarray, np.ndarray, np.ndarray, str]:
+def plotted(a: Analysis) -> tuple[np.ndarray, np.ndarray, np.ndarray, str]:
     """The plotted location statistic, its centre line and σ per subgroup, and its name.
 
     EWMA and CUSUM plot a running statistic whose neighbours are correlated; their subgroup means (the
@@ -134,7 +134,7 @@ def statistic(a: Analysis) -> tuple[np.ndarray, np.ndarray, np.ndarray, str]:
 def rank(a: Analysis, fdr: float = FDR) -> Ranking:
     """Every context column of the data against the plotted statistic (see the module docstring)."""
     from scipy import stats
-    values, centre, sigma, name = statistic(a)
+    values, centre, sigma, name = plotted(a)
     use = ~a.excluded_subgroups & np.isfinite(values)
     x = values[use]
     with np.errstate(divide="ignore", invalid="ignore"):
