@@ -68,13 +68,15 @@ def pg_demo(pg_server):
     demo = Path(__file__).resolve().parent.parent / "demo_data"
     with pg_server.connect("plant") as conn:
         conn.execute("SET ROLE engineer")
-        rows = list(csv.reader(open(demo / "filler_line3.csv", encoding="utf-8")))
-        conn.execute("CREATE TABLE filler (time timestamp, " + ", ".join(f'"{h}" numeric(5,1)' for h in rows[0][1:])
-                     + ")")
+        rows = list(csv.reader(open(demo / "filler_line3.csv", encoding="utf-8")))  # time, H1..H6, context …
+        conn.execute("CREATE TABLE filler (time timestamp, " + ", ".join([f'"{h}" numeric(5,1)' for h in rows[0][1:7]]
+                                                                         + [f'"{c}" text' for c in rows[0][7:]]) + ")")
         with conn.cursor() as cur:
-            cur.executemany("INSERT INTO filler VALUES (%s" + ", %s" * 6 + ")", rows[1:])
+            cur.executemany("INSERT INTO filler VALUES (%s" + ", %s" * (len(rows[0]) - 1) + ")", rows[1:])
         long_rows = list(csv.reader(open(demo / "filler_line3_long.csv", encoding="utf-8")))
-        conn.execute("CREATE TABLE filler_long (time text, head text, fill_ml double precision, operator text)")
+        conn.execute("CREATE TABLE filler_long (time text, head text, fill_ml double precision, "
+                     + ", ".join(f'"{c}" text' for c in long_rows[0][3:]) + ")")
         with conn.cursor() as cur:
-            cur.executemany("INSERT INTO filler_long VALUES (%s, %s, %s, %s)", long_rows[1:])
+            cur.executemany("INSERT INTO filler_long VALUES (%s" + ", %s" * (len(long_rows[0]) - 1) + ")",
+                            long_rows[1:])
     return pg_server.url("engineer", PG_PASSWORD, "plant")

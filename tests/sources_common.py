@@ -42,3 +42,9 @@ def assert_same(a, b, where: str = "report", rel: float = 1e-12) -> None:
         assert math.isclose(a, b, rel_tol=rel, abs_tol=rel), f"{where}: {a!r} != {b!r}"
     else:
         assert a == b, f"{where}: {a!r} != {b!r}"
+
+
+def without_context(dataset):
+    """The dataset with its context columns left out (for a source that reads only the mapped columns)."""
+    import dataclasses
+    return dataclasses.replace(dataset, extras={}, extra_sets={})

@@ -106,7 +106,8 @@ def test_a_case_written_before_firing_points_were_recorded_replays_to_the_same_s
     # key only); its states as that release reported them [the previous release's own report]
     (tmp_path / "demo_data").mkdir()
     (tmp_path / "tests" / "fixtures").mkdir(parents=True)
-    shutil.copy(DEMO_FILE, tmp_path / "demo_data" / DEMO_FILE.name)
+    # the demo file as it was when the case was written (before the context columns were added)
+    shutil.copy(FIXTURES / "filler_line3_v1.csv", tmp_path / "demo_data" / DEMO_FILE.name)
     case = tmp_path / "tests" / "fixtures" / "legacy_marks.case.json"
     shutil.copy(FIXTURES / "legacy_marks.case.json", case)
     assert "fired" not in case.read_text() and "answers" not in case.read_text()

@@ -54,9 +54,11 @@ def test_wide_demo_file_matches_csv_module():
     ds = load(path)
     rows = reference_rows(path)  # csv module: independent reference reader
     assert describe_layout(ds) == "wide: subgroup=time, streams=H1..H6 (detected)"
-    assert ds.streams == tuple(rows[0][1:])
+    assert ds.streams == tuple(rows[0][1:7])                      # time, H1..H6, then the context columns
     assert ds.labels.tolist() == [r[0] for r in rows[1:]]
-    np.testing.assert_array_equal(ds.values, np.array([[float(x) for x in r[1:]] for r in rows[1:]]))
+    np.testing.assert_array_equal(ds.values, np.array([[float(x) for x in r[1:7]] for r in rows[1:]]))
+    assert {c: ds.extras[c].tolist() for c in rows[0][7:]} == {c: [r[7 + j] for r in rows[1:]]
+                                                               for j, c in enumerate(rows[0][7:])}
     assert ds.values.dtype == np.float64 and ds.values.shape == (144, 6)
     assert ds.rows == 144 and ds.missing == 0 and ds.notices == ()
     # pandas.to_datetime is the reference parser for the time key
@@ -281,7 +283,8 @@ def test_override_long_stream_and_value(tmp_path):
     ds = load(p, LayoutRequest(subgroup="run", stream="gauge", value="reading"))
     assert ds.layout.kind == "long" and ds.streams == ("g1", "g2")
     np.testing.assert_array_equal(ds.values, [[1, 2], [3, np.nan]])
-    assert ds.extras["temp"].tolist() == ["20", "22"]
+    assert ds.extras["temp"].tolist() == ["20 | 21", "22"]         # r1's two values kept as its set
+    assert ds.extra_sets == {"temp": {0: ("20", "21")}}
 
 
 def test_override_time_column(tmp_path):
