@@ -62,6 +62,8 @@ class BenchScreen(BenchTools, BenchCharts, Screen):
         Binding("F", "filter", "Filter the signals", id="filter", show=False),
         Binding("S", "summary", "Signals against chance (summary)", id="summary", show=False),
         Binding("m", "streams", "Each stream on its own", id="streams", show=False),
+        Binding("C", "context", "What changed there (context columns: the signal, range or subgroup)",
+                id="what-changed", show=False),
         Binding("space", "range_mark", "Start / drop a range at the cursor", id="range-mark", show=False),
         Binding("shift+right", "range_step(1)", "Extend the range right", id="range-right", show=False),
         Binding("shift+left", "range_step(-1)", "Extend the range left", id="range-left", show=False),

@@ -72,6 +72,24 @@ class BenchTools:
         from workbench.tui.screens.summary import SummaryScreen
         self.app.push_screen(SummaryScreen())
 
+    def action_context(self) -> None:
+        """What changed there: the range when one is selected, else the signal selected at the cursor, else
+        the subgroup at the cursor."""
+        from workbench.tui.screens.context import ContextScreen, Where
+        snap = self.snap
+        if snap is None:
+            return
+        span = self.selected_range()
+        row = self._signal_row() if span is None else None
+        if span is not None:
+            where = Where(*span)
+        elif row is not None and snap.marks.rows[row].first >= 0:
+            r = snap.marks.rows[row]
+            where = Where(r.first, r.last, f"{r.chart} {r.rule}")
+        else:
+            where = Where(self.cursor, self.cursor)
+        self.app.push_screen(ContextScreen(where))
+
     def action_streams(self) -> None:
         from workbench.tui.screens.streams import StreamScreen
         self.app.push_screen(StreamScreen())

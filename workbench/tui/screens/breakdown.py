@@ -57,6 +57,7 @@ class BreakdownScreen(Screen):
         Binding("e", "mark('explained')", "Explained", id="breakdown-explain"),
         Binding("c", "mark('no-cause-found')", "No cause", id="breakdown-no-cause"),
         Binding("o", "mark('open')", "Reopen", id="breakdown-reopen", show=False),
+        Binding("C", "context", "What changed there", id="breakdown-context", show=False),
         Binding("right,l", "move(1)", "Next subgroup", id="breakdown-next", show=False),
         Binding("left,h", "move(-1)", "Previous subgroup", id="breakdown-prev", show=False),
     ]
@@ -173,6 +174,8 @@ class BreakdownScreen(Screen):
         if row is not None:
             r = snap.marks.rows[row]
             t.append(f"\nsignal: {r.chart} {r.rule} — {r.words} ({STATE_WORDS.get(r.state, r.state)})")
+        from workbench.tui.context_view import breakdown_lines
+        t.append_text(breakdown_lines(snap.analysis, p, snap.marks.rows[row].first if row is not None else None))
         if snap.analysis.excluded_subgroups[p]:
             info = snap.state.exclusion_info.get(str(snap.dataset.labels[p]))
             t.append("\nexcluded from the limits" + (f": {safe(info.reason)}" if info else ""), style="italic")
@@ -280,6 +283,15 @@ class BreakdownScreen(Screen):
         snap, p = self.snap, self.position
         row = snap.marks.row_at(p)
         self.app.mark_flow(snap.marks.rows[row].key if row is not None else None, state)
+
+    def action_context(self) -> None:
+        """What changed there: the signal at this subgroup, else the subgroup."""
+        from workbench.tui.screens.context import ContextScreen, Where
+        snap, p = self.snap, self.position
+        row = snap.marks.row_at(p)
+        r = snap.marks.rows[row] if row is not None else None
+        where = Where(r.first, r.last, f"{r.chart} {r.rule}") if r is not None and r.first >= 0 else Where(p, p)
+        self.app.push_screen(ContextScreen(where))
 
     def action_restore(self) -> None:
         self.app.restore_flow(self.position, stream=self._stream())

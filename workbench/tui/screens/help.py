@@ -15,12 +15,14 @@ def binding_groups() -> list[tuple[str, list[Binding]]]:
     """(screen title, bindings) for every screen of the workbench."""
     from workbench.tui.screens.bench import BenchScreen
     from workbench.tui.screens.breakdown import BreakdownScreen
+    from workbench.tui.screens.context import ContextScreen
     from workbench.tui.screens.fit import FitScreen
     from workbench.tui.screens.streams import StreamScreen
     from workbench.tui.screens.summary import SummaryScreen
     from workbench.tui.screens.trail import TrailScreen
     groups = [("Bench", BenchScreen.BINDINGS), ("Breakdown", BreakdownScreen.BINDINGS), ("Fit", FitScreen.BINDINGS),
               ("Trail", TrailScreen.BINDINGS), ("Summary", SummaryScreen.BINDINGS),
+              ("What changed there", ContextScreen.BINDINGS),
               ("Stream view", StreamScreen.BINDINGS), ("Everywhere", APP_BINDINGS),
               ("Dialogs", [Binding("escape,q", "cancel", "Cancel the dialog (q outside a text field)", id="dialog-cancel"),
                            Binding("enter", "confirm", "Confirm (in a text field)", id="dialog-confirm"),

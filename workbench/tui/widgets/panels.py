@@ -7,6 +7,7 @@ from rich.style import Style
 from workbench.core.analysis import sigma_label
 from workbench.core.text import num, nums, reading
 
+from workbench.tui.context_view import add_context, add_leads
 from workbench.tui.plotting import COLOUR, GLYPH
 from workbench.tui.session import Snapshot
 from workbench.tui.view import NORMAL, OPEN, STATE_WORDS, safe
@@ -26,8 +27,9 @@ def _fits(out_width: int, *texts: str) -> bool:
     return sum(len(t) for t in texts) <= out_width
 
 
-def subgroup_lines(snap: Snapshot, p: int, width: int = 44) -> Lines:
-    """The selected subgroup: chart values, its signal, readings by stream, why excluded, notes."""
+def subgroup_lines(snap: Snapshot, p: int, width: int = 44, height: int | None = None) -> Lines:
+    """The selected subgroup: chart values, its signal and its leads, readings by stream, why excluded, its
+    context (in the lines left of ``height``, the rest counted), notes."""
     a, ds, st = snap.analysis, snap.dataset, snap.state
     raw = str(ds.labels[p])
     out = Lines()
@@ -71,6 +73,9 @@ def subgroup_lines(snap: Snapshot, p: int, width: int = 44) -> Lines:
         out.wrapped(f"signal {r.chart} {r.rule} · {r.status or STATE_WORDS.get(r.state, r.state)}", width, BOLD,
                     "  ")
         out.wrapped(r.words, width, DIM, "  ")
+        if r.first >= 0:
+            add_leads(out, a, r.first, width)
+    add_context(out, ds, p, width, None if height is None else max(height - len(out.done()), 1))
     for note in st.notes:
         if note.target == raw or note.target.startswith(raw + ":"):
             out.wrapped(f"note: {safe(note.text)} ({safe(note.author)})", width, None, "  ")
@@ -119,7 +124,7 @@ class SubgroupPanel(LinesPanel, can_focus=False):
     """The selected subgroup's readings by stream."""
 
     def show(self, snap: Snapshot, p: int) -> None:
-        self.set_lines(subgroup_lines(snap, p, max(self.size.width, 20)))
+        self.set_lines(subgroup_lines(snap, p, max(self.size.width, 20), self.size.height or None))
 
 
 def status_lines(snap: Snapshot, p: int, saving: bool, busy: str = "", width: int = 120,
