@@ -431,6 +431,60 @@ async def test_stream_view_keys(in_tmp, opened):
         await pilot.press("q")
 
 
+async def test_what_changed_there_keys_for_a_signal_a_range_and_from_the_breakdown(in_tmp, opened):
+    """C opens "what changed there": for the signal at the cursor its leads (demo_data/planted.json: the lot
+    change at the step's first subgroup, logged as concentrate_lot L-2291 → L-2292 by demo_data/generate.py),
+    for a range the changes at both of its ends (the H4 nozzle swap and re-seat around the drift)."""
+    from tui_helpers import planted_causes
+    from workbench.tui.screens.context import ContextScreen
+    step = next(c for c in planted_causes() if c["file"] == "filler_line3.csv" and c["kind"] == "step")
+    drift = next(c for c in planted_causes() if c["file"] == "filler_line3.csv" and c["kind"] == "drift")
+    app = demo_app()
+    async with opened(app, size=(120, 36)) as pilot:
+        bench = app.screen
+        ds = app.snapshot.dataset
+        bench.move_to(ds.index_of(step["first"]))
+        await settle(pilot)
+        panel = bench.query_one("#subgroup").plain()
+        assert "lead (C): concentrate_lot L-2291 → L-2292" in panel and "concentrate_lot L-2292" in panel
+        await press(pilot, "what-changed", "C")
+        assert isinstance(app.screen, ContextScreen)
+        text = text_of(app.screen.query_one("#context-text"))
+        assert f"signal xbar" in text and step["first"] in text
+        first_change = text.split("nearest first", 1)[1].strip().splitlines()[0]
+        assert first_change.startswith("• concentrate_lot changed L-2291 → L-2292 at the start of the signal's run")
+        assert "leads, not verdicts" in text
+        await press(pilot, "context-back", "escape")
+        assert app.screen is bench
+        # a range: the drift's first .. last subgroup
+        first, last = ds.index_of(drift["first"]), ds.index_of(drift["last"])
+        bench.move_to(first)
+        await pilot.press("space")
+        bench.move_to(last)
+        await settle(pilot)
+        assert bench.selected_range() == (first, last)
+        await press(pilot, "what-changed", "C")
+        text = text_of(app.screen.query_one("#context-text"))
+        assert "range " + drift["first"] in text
+        assert "nozzle_service changed PM 2026-02-27 → H4 nozzle swap 09:50 at the start of the range" in text
+        assert "→ H4 nozzle re-seated 14:55 at the first subgroup after the range" in text
+        await press(pilot, "context-back", "escape")
+        await pilot.press("escape")  # drops the range
+        # from the breakdown of the lot change's first subgroup
+        bench.move_to(ds.index_of(step["first"]))
+        await pilot.press("enter")
+        await settle(pilot)
+        bd = app.screen
+        assert isinstance(bd, BreakdownScreen)
+        head = text_of(bd.query_one("#bd-head"))
+        assert "context:" in head and "what changed there: concentrate_lot changed L-2291 → L-2292" in head
+        await press(pilot, "breakdown-context", "C")
+        assert isinstance(app.screen, ContextScreen) and step["first"] in text_of(app.screen.query_one("#context-text"))
+        await press(pilot, "context-back", "escape")
+        assert app.screen is bd
+        await pilot.press("q")
+
+
 FIT_KEYS = (("fit-normal", "1", "normal"), ("fit-percentile", "3", "percentile"), ("fit-box-cox", "2", "box-cox"),
             ("fit-auto", "4", "auto"))
 

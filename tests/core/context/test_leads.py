@@ -102,3 +102,19 @@ def test_a_given_anchor_replaces_the_start_of_the_run():
     got = signal_leads(a, sig, anchor=swap + 1)
     assert [(c.column, c.offset, c.anchor) for c in got if c.column == "nozzle_service"] == \
         [("nozzle_service", -1, "the estimated change point")]
+
+
+def test_with_the_planted_causes_excluded_no_context_column_is_a_lead():
+    """demo_data/README.md: before exclusion the shift, the operator and the label roll read as leads only because
+    the planted causes fell on them; with the three planted causes (demo_data/planted.json) left out, none is.
+    Mutation killed: excluded subgroups kept in the ranking."""
+    from workbench.core.context.ranking import context_of
+    from workbench.core.model import Exclusion
+    ds = load(DEMO_FILE)
+    before = context_of(analyse(ds))
+    assert {"concentrate_lot", "operator", "shift"} <= {s.column for s in before.leads}
+    out = []
+    for c in (c for c in PLANTED if c["file"] == "filler_line3.csv"):
+        out += [Exclusion(str(lab)) for lab in ds.labels[ds.index_of(c["first"]):ds.index_of(c["last"]) + 1]]
+    after = context_of(analyse(ds, exclusions=out))
+    assert after.used == ds.m - len(out) and after.leads == ()
