@@ -39,8 +39,9 @@ def _append(data, lines) -> None:
 
 # Six heads near the demo's 500 mL centre; the planted subgroup has every head about 4 mL high, far
 # beyond the X-bar UCL (Montgomery, Introduction to SQC, ch. 6: a point beyond 3 sigma limits) [definition]
-CALM = "{t},500.1,499.9,500.0,500.2,499.8,500.0"
-HIGH = "{t},504.1,503.9,504.0,504.2,503.8,504.0"
+CONTEXT = ",L-2292,day,K. Osei,H4 nozzle re-seated 14:55,R-7106,J. Lind"  # the demo's context columns
+CALM = "{t},500.1,499.9,500.0,500.2,499.8,500.0" + CONTEXT
+HIGH = "{t},504.1,503.9,504.0,504.2,503.8,504.0" + CONTEXT
 
 
 async def test_watch_finds_a_planted_point_and_records_it(in_tmp, opened):
