@@ -118,3 +118,8 @@ def test_with_the_planted_causes_excluded_no_context_column_is_a_lead():
         out += [Exclusion(str(lab)) for lab in ds.labels[ds.index_of(c["first"]):ds.index_of(c["last"]) + 1]]
     after = context_of(analyse(ds, exclusions=out))
     assert after.used == ds.m - len(out) and after.leads == ()
+
+
+def test_data_without_context_columns_have_a_null_context_and_no_leads():
+    rep = report_json(analyse(load(DEMO_FILE.parent / "stable_caps.csv")))
+    assert rep["context"] is None and all("leads" not in s for s in rep["signals"])

@@ -54,10 +54,9 @@ def change_json(a: Analysis, c: Change, statistic: str) -> dict[str, Any]:
 
 
 def add_leads(a: Analysis, signals: list[dict[str, Any]]) -> None:
-    """``leads`` of every signal dict (by its ``first``), in place; an empty list without context columns."""
+    """``leads`` of every signal dict (by its ``first``), in place; data without context columns get no
+    ``leads`` key (``context`` is null), so a report of 40,000 signals pays nothing for it."""
     if not a.dataset.extras:
-        for d in signals:
-            d["leads"] = []
         return
     r = context_of(a)
     found = leads_at_many(a, np.array([d["first"] for d in signals], dtype=np.int64))
