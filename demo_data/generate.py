@@ -41,7 +41,7 @@ MISKEY_AT, MISKEY_HEAD, MISKEY_INTENDED, MISKEY_RECORDED = 134, "H2", 500.6, 509
 # took the sample line up with none.  Drawn from their own generator, so the fills are those of before.
 LOTS = ((0, "L-2290"), (60, "L-2291"), (STEP_FIRST, "L-2292"))
 SERVICE = ((0, "PM 2026-02-27"), (DRIFT_FIRST, "H4 nozzle swap 09:50"), (DRIFT_LAST + 1, "H4 nozzle re-seated 14:55"))
-LABEL_ROLLS = ((0, "R-7101"), (10, "R-7102"), (40, "R-7103"), (64, "R-7104"), (92, "R-7105"), (124, "R-7106"))
+LABEL_ROLLS = ((0, "R-7101"), (10, "R-7102"), (44, "R-7103"), (64, "R-7104"), (92, "R-7105"), (124, "R-7106"))
 CHECKERS = ("J. Lind", "M. Ito", "S. Park")  # invented; whoever was free took the sample
 NOZZLE_IDS = ("N-311", "N-312", "N-313", "N-314", "N-315", "N-316")
 NEW_H4_NOZZLE = "N-402"

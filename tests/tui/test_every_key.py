@@ -452,7 +452,7 @@ async def test_what_changed_there_keys_for_a_signal_a_range_and_from_the_breakdo
         text = text_of(app.screen.query_one("#context-text"))
         assert f"signal xbar" in text and step["first"] in text
         first_change = text.split("nearest first", 1)[1].strip().splitlines()[0]
-        assert first_change.startswith("• concentrate_lot changed L-2291 → L-2292 at the start of the signal's run")
+        assert first_change.startswith("• concentrate_lot changed L-2291 → L-2292 at the estimated change point")
         assert "leads, not verdicts" in text
         await press(pilot, "context-back", "escape")
         assert app.screen is bench

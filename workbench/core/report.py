@@ -229,7 +229,7 @@ def report_text(a: Analysis, states: dict | None = None, width: int = 100) -> st
         span = ds.labels[s.first] if s.first == s.last else f"{ds.labels[s.first]} … {ds.labels[s.last]}"
         L.append(f"  {s.chart:<5} {s.rule:<14} {_p(span)}  — {s.description}{st}")
         L.extend(_shape_lines(a, i))
-        L.extend(CX.signal_text_lines(a, s.first, ranking))
+        L.extend(CX.signal_text_lines(a, s, ranking))
     if len(a.signals) > MAX_TEXT_SIGNALS:
         L.append(f"  … {len(a.signals) - MAX_TEXT_SIGNALS} more (use --format json for all)")
     if a.signals:

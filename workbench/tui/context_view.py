@@ -7,7 +7,8 @@ import textwrap
 from rich.text import Text
 
 from workbench.core.context import words as W
-from workbench.core.context.leads import RANGE_END, RUN, WINDOW, Change, changes_at, range_leads
+from workbench.core.context.leads import CHANGE_POINT, RANGE_END, RUN, WINDOW, Change, anchor_of, changes_at, \
+    range_leads
 from workbench.core.context.ranking import context_of
 from workbench.core.model import Analysis, Dataset
 
@@ -73,34 +74,39 @@ def add_context(out: Lines, ds: Dataset, p: int, width: int, room: int | None = 
 
 def short(c: Change) -> str:
     """A lead in a few words for the subgroup panel: ``lot L-1 → L-2 one subgroup before the run, +1.9σ``."""
-    where = W.when(c).replace(RUN, "the run's start").replace(RANGE_END, "the range's end")
+    where = W.when(c).replace(RUN, "the run's start").replace(CHANGE_POINT, "the change point") \
+        .replace(RANGE_END, "the range's end")
     s = c.separation
     lv = s.level(c.after) if s is not None and s.lead else None
     tail = f", {W.sigmas(lv.sigmas)}" if lv is not None else ""
     return f"{c.column} {c.before} → {c.after} {where}{tail}"
 
 
-def signal_changes(a: Analysis, first: int) -> list[Change]:
-    """The changes near a signal whose pattern starts at ``first`` (its run's start)."""
-    return changes_at(a, first, RUN) if a.dataset.extras else []
+def signal_changes(a: Analysis, key: str, first: int) -> list[Change]:
+    """The changes near the signal ``key`` whose pattern starts at ``first``: around its estimated change
+    point where it has one, else around its run's start."""
+    if not a.dataset.extras:
+        return []
+    anchor, at = anchor_of(a, key, first)
+    return changes_at(a, anchor, CHANGE_POINT if at else RUN)
 
 
-def add_leads(out: Lines, a: Analysis, first: int, width: int) -> None:
+def add_leads(out: Lines, a: Analysis, key: str, first: int, width: int) -> None:
     """Under the signal in the subgroup panel: its leads (changes of columns that separate the statistic)."""
-    found = [c for c in signal_changes(a, first) if c.lead]
+    found = [c for c in signal_changes(a, key, first) if c.lead]
     for c in found[:2]:
         out.wrapped("lead (C): " + safe(short(c)), width, BOLD, "  ")
 
 
-def breakdown_lines(a: Analysis, p: int, first: int | None) -> Text:
+def breakdown_lines(a: Analysis, p: int, key: str | None, first: int | None) -> Text:
     """The breakdown's context line and, for a signal at this subgroup, its first lead in words."""
     t = Text()
     parts = pieces(a.dataset, p)
     if parts:
         t.append("\ncontext: ", style="dim")
         t.append(" · ".join(part.replace(" ", NBSP) for part in parts))  # wraps between pieces, never inside
-    if first is not None:
-        found = signal_changes(a, first)
+    if key is not None and first is not None:
+        found = signal_changes(a, key, first)
         r = context_of(a)
         if found and r is not None:
             c = found[0]

@@ -216,10 +216,11 @@ class Session:
     def snapshot(self) -> Snapshot:
         case = self.case
         if self.dataset.extras:  # the context ranking and change positions, here in the worker, not on a keypress
-            from workbench.core.context.leads import change_positions
+            from workbench.core.context.leads import change_positions, signal_anchors
             from workbench.core.context.ranking import context_of
             context_of(self.analysis)
             change_positions(self.dataset)
+            signal_anchors(self.analysis)
         return Snapshot(self.dataset, self.analysis, case.state, tuple(case.events),
                         marks_for(self.analysis, case.state), case.path, case.readonly_reason, case.author)
 

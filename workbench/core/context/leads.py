@@ -6,9 +6,9 @@ per dataset (one ``pandas.factorize`` and a comparison of neighbours) and kept w
 one signal cost a binary search per column, and a report of 40,000 signals asks only for the signals it
 shows.
 
-Anchors: a signal's anchor is the first point of its pattern (where its run began) unless the caller
-passes another, e.g. an estimated change point; a range FIRST..LAST has two, its first subgroup and the
-subgroup after its last (where it ended).
+Anchors: a signal's anchor is its estimated change point where it has one (a sustained shift on a location
+chart: ``core/charts/changepoint.py``), else the first point of its pattern (where its run began); a caller
+may pass another.  A range FIRST..LAST has two, its first subgroup and the subgroup after its last.
 """
 from __future__ import annotations
 
@@ -89,10 +89,36 @@ def changes_at(a: Analysis, anchor: int, what: str = RUN, window: int = WINDOW,
     return out
 
 
-def leads_at_many(a: Analysis, anchors: np.ndarray, window: int = WINDOW) -> list[list[Change]]:
-    """``changes_at`` of many signals' anchors (their first points) at once: one binary search per column
-    over every anchor, Python work only where a change lies near (a report of 40,000 signals on data
-    without context columns pays nothing)."""
+def signal_anchors(a: Analysis) -> tuple[np.ndarray, np.ndarray]:
+    """Every signal's anchor, in the signal table's order, and True where it is the estimated change point
+    (else the first point of the signal's pattern)."""
+    from workbench.core.charts import changepoint as CP
+    table = a.signals
+    first = getattr(table, "first", None)
+    if first is None:
+        first = np.array([s.first for s in table], dtype=np.int64)
+    cp = CP.signal_shapes(a).index
+    at = cp >= 0
+    return np.where(at, cp, first).astype(np.int64), at
+
+
+def anchor_of(a: Analysis, key: str, first: int) -> tuple[int, bool]:
+    """The anchor of the signal ``key`` whose pattern starts at ``first`` (see :func:`signal_anchors`)."""
+    anchors, at = signal_anchors(a)
+    table = a.signals
+    starts = getattr(table, "first", None)
+    lo, hi = (0, len(table)) if starts is None else (int(v) for v in np.searchsorted(starts, [first, first + 1]))
+    for i in range(lo, hi):
+        if table[i].key == key:
+            return int(anchors[i]), bool(at[i])
+    return int(first), False
+
+
+def leads_at_many(a: Analysis, anchors: np.ndarray, at_change: np.ndarray | None = None,
+                  window: int = WINDOW) -> list[list[Change]]:
+    """``changes_at`` of many signals' anchors at once (``at_change``: True where the anchor is an estimated
+    change point): one binary search per column over every anchor, Python work only where a change lies
+    near (a report of 40,000 signals on data without context columns pays nothing)."""
     ds = a.dataset
     anchors = np.asarray(anchors, dtype=np.int64)
     if not ds.extras or not anchors.size:
@@ -106,7 +132,8 @@ def leads_at_many(a: Analysis, anchors: np.ndarray, window: int = WINDOW) -> lis
         near |= hi > lo
     ranking = context_of(a)
     for i in np.flatnonzero(near).tolist():
-        out[i] = changes_at(a, int(anchors[i]), RUN, window, ranking)
+        what = CHANGE_POINT if at_change is not None and at_change[i] else RUN
+        out[i] = changes_at(a, int(anchors[i]), what, window, ranking)
     return out
 
 
@@ -116,10 +143,11 @@ def signal_anchor(s: Signal) -> int:
 
 
 def signal_leads(a: Analysis, s: Signal, anchor: int | None = None, window: int = WINDOW) -> list[Change]:
-    """The context changes near a signal: around ``anchor`` when given (e.g. an estimated change point),
-    else around the first point of its pattern."""
+    """The context changes near a signal: around ``anchor`` when given (words: the estimated change point),
+    else around its own anchor (:func:`signal_anchors`)."""
     if anchor is None:
-        return changes_at(a, signal_anchor(s), RUN, window)
+        anchor, at = anchor_of(a, s.key, s.first)
+        return changes_at(a, anchor, CHANGE_POINT if at else RUN, window)
     return changes_at(a, int(anchor), CHANGE_POINT, window)
 
 

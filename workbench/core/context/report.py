@@ -7,7 +7,7 @@ from typing import Any
 import numpy as np
 
 from workbench.core.context import words as W
-from workbench.core.context.leads import WINDOW, Change, leads_at_many
+from workbench.core.context.leads import WINDOW, Change, anchor_of, leads_at_many, signal_anchors
 from workbench.core.context.ranking import MIN_LEVEL, Ranking, Separation, context_of
 from workbench.core.model import Analysis
 from workbench.core.text import md, num, printable
@@ -59,7 +59,8 @@ def add_leads(a: Analysis, signals: list[dict[str, Any]]) -> None:
     if not a.dataset.extras:
         return
     r = context_of(a)
-    found = leads_at_many(a, np.array([d["first"] for d in signals], dtype=np.int64))
+    anchors, at = signal_anchors(a)             # the signal table's order, as ``signals`` is
+    found = leads_at_many(a, anchors, at)
     for d, changes in zip(signals, found):
         d["leads"] = [change_json(a, c, r.statistic) for c in changes]
 
@@ -75,11 +76,12 @@ def text_lines(a: Analysis) -> list[str]:
     return out
 
 
-def signal_text_lines(a: Analysis, first: int, ranking: Ranking | None) -> list[str]:
+def signal_text_lines(a: Analysis, s, ranking: Ranking | None) -> list[str]:
     """Under one signal of the text report: its leads (at most ``TEXT_LEADS``), then how many more."""
     if ranking is None:
         return []
-    changes = leads_at_many(a, np.array([first]))[0]
+    anchor, at = anchor_of(a, s.key, s.first)
+    changes = leads_at_many(a, np.array([anchor]), np.array([at]))[0]
     out = [f"      what changed there: {printable(W.change_sentence(c, str(a.dataset.labels[c.position]), ranking.statistic))}"
            for c in changes[:TEXT_LEADS]]
     if len(changes) > TEXT_LEADS:
@@ -103,10 +105,11 @@ def markdown_lines(a: Analysis) -> list[str]:
         out.append(f"| {md(s.column)} | {'**lead**' if s.lead else 'no'} | {num(s.eta2)} | {num(s.f)} | "
                    f"{W.p_text(s.p)} | {W.p_text(s.p_adjusted)} | {num(s.h)} | {W.p_text(s.p_kruskal)} | {levels} |")
     out += ["", f"Rule: {md(RULE)}.", "", f"*{md(W.CAUTION)}*"]
-    found = leads_at_many(a, np.array([s.first for s in a.signals], dtype=np.int64))
+    found = leads_at_many(a, *signal_anchors(a))
     near = [(s, ch) for s, ch in zip(a.signals, found) if ch]
     if near:
-        out += ["", f"## What changed there (within {WINDOW} subgroups of each signal's start)", ""]
+        out += ["", f"## What changed there (within {WINDOW} subgroups of each signal's change point, or of "
+                    "its run's start)", ""]
         for s, changes in near:
             out.append(f"- **{s.chart} {s.rule}** from {md(a.dataset.labels[s.first])}:")
             out += [f"  - {md(W.change_sentence(c, str(a.dataset.labels[c.position]), r.statistic))}"

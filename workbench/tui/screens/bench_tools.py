@@ -85,7 +85,7 @@ class BenchTools:
             where = Where(*span)
         elif row is not None and snap.marks.rows[row].first >= 0:
             r = snap.marks.rows[row]
-            where = Where(r.first, r.last, f"{r.chart} {r.rule}")
+            where = Where(r.first, r.last, f"{r.chart} {r.rule}", r.key)
         else:
             where = Where(self.cursor, self.cursor)
         self.app.push_screen(ContextScreen(where))

@@ -175,7 +175,8 @@ class BreakdownScreen(Screen):
             r = snap.marks.rows[row]
             t.append(f"\nsignal: {r.chart} {r.rule} — {r.words} ({STATE_WORDS.get(r.state, r.state)})")
         from workbench.tui.context_view import breakdown_lines
-        t.append_text(breakdown_lines(snap.analysis, p, snap.marks.rows[row].first if row is not None else None))
+        r = snap.marks.rows[row] if row is not None else None
+        t.append_text(breakdown_lines(snap.analysis, p, r.key if r else None, r.first if r else None))
         if snap.analysis.excluded_subgroups[p]:
             info = snap.state.exclusion_info.get(str(snap.dataset.labels[p]))
             t.append("\nexcluded from the limits" + (f": {safe(info.reason)}" if info else ""), style="italic")
@@ -290,7 +291,7 @@ class BreakdownScreen(Screen):
         snap, p = self.snap, self.position
         row = snap.marks.row_at(p)
         r = snap.marks.rows[row] if row is not None else None
-        where = Where(r.first, r.last, f"{r.chart} {r.rule}") if r is not None and r.first >= 0 else Where(p, p)
+        where = Where(r.first, r.last, f"{r.chart} {r.rule}", r.key) if r is not None and r.first >= 0 else Where(p, p)
         self.app.push_screen(ContextScreen(where))
 
     def action_restore(self) -> None:

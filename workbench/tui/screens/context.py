@@ -25,6 +25,8 @@ class Where:
     last: int
     signal: str | None = None
     """The signal in words ("xbar beyond-limits"), or None for a range or a subgroup."""
+    key: str | None = None
+    """The signal's key (its change point, when it has one, is the anchor)."""
 
 
 def title_of(snap: Snapshot, where: Where) -> str:
@@ -38,11 +40,11 @@ def title_of(snap: Snapshot, where: Where) -> str:
 
 def text_of(snap: Snapshot, where: Where) -> Text:
     """The screen's text (built in a worker)."""
-    from workbench.core.context.leads import RUN, changes_at
-    from workbench.tui.context_view import range_changes, screen_text
+    from workbench.core.context.leads import changes_at
+    from workbench.tui.context_view import range_changes, screen_text, signal_changes
     a = snap.analysis
-    if where.signal is not None:
-        changes = changes_at(a, where.first, RUN) if a.dataset.extras else []
+    if where.signal is not None and where.key is not None:
+        changes = signal_changes(a, where.key, where.first)
     elif where.first != where.last:
         changes = range_changes(a, where.first, where.last)
     else:

@@ -74,7 +74,7 @@ def subgroup_lines(snap: Snapshot, p: int, width: int = 44, height: int | None =
                     "  ")
         out.wrapped(r.words, width, DIM, "  ")
         if r.first >= 0:
-            add_leads(out, a, r.first, width)
+            add_leads(out, a, r.key, r.first, width)
     add_context(out, ds, p, width, None if height is None else max(height - len(out.done()), 1))
     for note in st.notes:
         if note.target == raw or note.target.startswith(raw + ":"):
