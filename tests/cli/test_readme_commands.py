@@ -181,10 +181,12 @@ def test_readme_database_examples_on_a_real_postgresql_server(tmp_path, pg_serve
     with pg_server.connect("plant") as conn:
         conn.execute("SET ROLE engineer")
         conn.execute("DROP TABLE IF EXISTS fills")
-        conn.execute("CREATE TABLE fills (time text, head text, fill_ml double precision, operator text)")
-        rows = list(csv.reader(open(ROOT / "demo_data" / "filler_line3_long.csv", encoding="utf-8")))[1:]
+        head, *rows = list(csv.reader(open(ROOT / "demo_data" / "filler_line3_long.csv", encoding="utf-8")))
+        # time, head, fill_ml, then the demo's context columns (operator, lot, shift, …) as text
+        conn.execute("CREATE TABLE fills (time text, head text, fill_ml double precision, "
+                     + ", ".join(f'"{c}" text' for c in head[3:]) + ")")
         with conn.cursor() as cur:
-            cur.executemany("INSERT INTO fills VALUES (%s, %s, %s, %s)", rows)
+            cur.executemany("INSERT INTO fills VALUES (%s" + ", %s" * (len(head) - 1) + ")", rows)
     from sources_common import PG_PASSWORD
     work = _folder(tmp_path)
     env = _env(tmp_path)
