@@ -76,7 +76,7 @@ class ContextScreen(Screen):
         self.token += 1
         self._compute(self.token, snap)
 
-    @work(thread=True, exclusive=True, group="context")
+    @work(thread=True, exclusive=True, group="context", description="what changed there")
     def _compute(self, token: int, snap: Snapshot) -> None:
         try:
             text = text_of(snap, self.where)
